@@ -1,0 +1,248 @@
+"""study.toml: the study's configuration, validated once, at the edge.
+
+Every key is checked; a bad value raises ConfigError naming the key, the
+value and what is allowed. Missing keys take the documented defaults, so a
+study folder works with no study.toml at all.
+"""
+
+from __future__ import annotations
+
+import re
+import tomllib
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+from typing import Any
+
+from .errors import ConfigError
+from .timeutil import machine_timezone, zone
+
+ACTIGRAPHY_ALGORITHMS = ("cole-kripke", "sadeh")
+# Cole–Kripke 1992 1-min coefficient sets (see sleepfuse/scoring/actigraphy.py).
+COLE_KRIPKE_SETS = ("1min-mean", "1min-max")
+NONWEAR_RULES = ("auto", "column", "choi", "none")
+STAGE_TARGETS = ("W", "N1", "N2", "N3", "R", "unscored")
+ACTIGRAPHY_COLUMN_KEYS = ("timestamp", "counts", "off_wrist", "marker")
+DIARY_COLUMN_KEYS = (
+    "participant",
+    "night",
+    "bedtime",
+    "tried_to_sleep",
+    "sol_min",
+    "nwak",
+    "waso_min",
+    "final_awakening",
+    "out_of_bed",
+    "quality",
+)
+
+
+@dataclass
+class StudySection:
+    name: str = ""
+    timezone: str = ""
+    timezone_from_machine: bool = False
+    participant_pattern: str = ""  # regex with one group (or named group "participant")
+
+
+@dataclass
+class FilesSection:
+    psg: str = "psg/*.edf"
+    actigraphy: str = "actigraphy/*.csv"
+    diary: str = "diary/*.csv"
+
+
+@dataclass
+class PsgSection:
+    epoch_s: float = 30.0
+    labels: dict[str, str] = field(default_factory=dict)  # extra label -> W/N1/N2/N3/R/unscored
+    signal_label: str = ""  # name of an ordinary signal that holds a hypnogram, "" = auto
+    signal_codes: dict[str, str] = field(default_factory=dict)  # extra integer code -> target
+
+
+@dataclass
+class ActigraphySection:
+    columns: dict[str, str] = field(default_factory=dict)  # timestamp/counts/off_wrist/marker -> CSV name
+    algorithm: str = "cole-kripke"
+    coefficients: str = "1min-mean"
+    count_scale: float = 1.0  # multiply device counts by this before scoring
+    webster: bool = True
+    nonwear: str = "auto"  # auto: column if present, else Choi
+    sadeh_cap: float = 300.0
+
+
+@dataclass
+class DiarySection:
+    columns: dict[str, str] = field(default_factory=dict)
+    quality_scale: str = "as entered"
+
+
+@dataclass
+class ScoringSection:
+    lps_run_min: float = 10.0  # latency to persistent sleep: run length, minutes
+    min_wake_bout_min: float = 0.0  # wake bouts shorter than this are not counted in nwak
+
+
+@dataclass
+class AgreementSection:
+    clock_offset_max_min: float = 30.0
+    clock_offset_flag_min: float = 5.0
+
+
+@dataclass
+class StudyConfig:
+    root: Path
+    study: StudySection = field(default_factory=StudySection)
+    files: FilesSection = field(default_factory=FilesSection)
+    psg: PsgSection = field(default_factory=PsgSection)
+    actigraphy: ActigraphySection = field(default_factory=ActigraphySection)
+    diary: DiarySection = field(default_factory=DiarySection)
+    scoring: ScoringSection = field(default_factory=ScoringSection)
+    agreement: AgreementSection = field(default_factory=AgreementSection)
+    source: Path | None = None  # the study.toml read, if any
+
+    @property
+    def timezone(self) -> str:
+        return self.study.timezone
+
+    def participant_of(self, path: Path) -> str | None:
+        """Participant ID from a file name: the part before the first '_', or the regex group."""
+        stem = path.stem
+        if self.study.participant_pattern:
+            m = re.search(self.study.participant_pattern, stem)
+            if not m:
+                return None
+            if "participant" in m.groupdict():
+                return m.group("participant")
+            return m.group(1) if m.groups() else m.group(0)
+        return stem.split("_", 1)[0] or None
+
+    def to_dict(self) -> dict[str, Any]:
+        """The full effective configuration (for provenance.json)."""
+        d = asdict(self)
+        d["root"] = str(self.root)
+        d["source"] = str(self.source) if self.source else None
+        return d
+
+
+_SECTIONS = {
+    "study": StudySection,
+    "files": FilesSection,
+    "psg": PsgSection,
+    "actigraphy": ActigraphySection,
+    "diary": DiarySection,
+    "scoring": ScoringSection,
+    "agreement": AgreementSection,
+}
+
+
+def _fail(key: str, value: object, allowed: str, path: Path | None) -> None:
+    raise ConfigError(key, value, allowed, path)
+
+
+def _check_type(key: str, value: object, default: object, path: Path | None) -> object:
+    if isinstance(default, bool):
+        if not isinstance(value, bool):
+            _fail(key, value, "true or false", path)
+        return value
+    if isinstance(default, float):
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            _fail(key, value, "a number", path)
+        return float(value)
+    if isinstance(default, str):
+        if not isinstance(value, str):
+            _fail(key, value, "a string", path)
+        return value
+    if isinstance(default, dict):
+        if not isinstance(value, dict) or not all(isinstance(v, str) for v in value.values()):
+            _fail(key, value, "a table of strings", path)
+        return {str(k): v for k, v in value.items()}
+    return value
+
+
+def _choice(key: str, value: str, allowed: tuple[str, ...], path: Path | None) -> None:
+    if value not in allowed:
+        _fail(key, value, ", ".join(allowed), path)
+
+
+def build_config(root: str | Path, data: dict[str, Any] | None = None, source: Path | None = None) -> StudyConfig:
+    """Validate a parsed study.toml mapping and return the effective configuration."""
+    root = Path(root)
+    data = data or {}
+    cfg = StudyConfig(root=root, source=source)
+    for section, value in data.items():
+        if section not in _SECTIONS:
+            _fail(section, "[...]", "sections " + ", ".join(_SECTIONS), source)
+        if not isinstance(value, dict):
+            _fail(section, value, "a [table]", source)
+        target = getattr(cfg, section)
+        for key, item in value.items():
+            full = f"{section}.{key}"
+            if key == "timezone_from_machine" or not hasattr(target, key):
+                allowed = [k for k in vars(target) if k != "timezone_from_machine"]
+                _fail(full, item, "keys " + ", ".join(allowed), source)
+            setattr(target, key, _check_type(full, item, getattr(target, key), source))
+
+    st = cfg.study
+    if st.timezone:
+        try:
+            zone(st.timezone)
+        except ValueError:
+            _fail("study.timezone", st.timezone, "an IANA zone name such as 'Europe/Berlin'", source)
+    else:
+        st.timezone = machine_timezone()
+        st.timezone_from_machine = True
+    if not st.name:
+        st.name = root.resolve().name
+    if st.participant_pattern:
+        try:
+            re.compile(st.participant_pattern)
+        except re.error as exc:
+            _fail("study.participant_pattern", st.participant_pattern, f"a valid regular expression ({exc})", source)
+
+    if cfg.psg.epoch_s <= 0:
+        _fail("psg.epoch_s", cfg.psg.epoch_s, "a positive number of seconds", source)
+    for label, tgt in cfg.psg.labels.items():
+        _choice(f"psg.labels.{label!s}", tgt, STAGE_TARGETS, source)
+    for code, tgt in cfg.psg.signal_codes.items():
+        try:
+            int(code)
+        except ValueError:
+            _fail("psg.signal_codes", code, "integer codes as keys, e.g. \"5\" = \"R\"", source)
+        _choice(f"psg.signal_codes.{code}", tgt, STAGE_TARGETS, source)
+
+    act = cfg.actigraphy
+    for k in act.columns:
+        _choice("actigraphy.columns", k, ACTIGRAPHY_COLUMN_KEYS, source)
+    _choice("actigraphy.algorithm", act.algorithm, ACTIGRAPHY_ALGORITHMS, source)
+    _choice("actigraphy.coefficients", act.coefficients, COLE_KRIPKE_SETS, source)
+    _choice("actigraphy.nonwear", act.nonwear, NONWEAR_RULES, source)
+    if act.count_scale <= 0:
+        _fail("actigraphy.count_scale", act.count_scale, "a positive number", source)
+    if act.sadeh_cap <= 0:
+        _fail("actigraphy.sadeh_cap", act.sadeh_cap, "a positive number", source)
+    for k in cfg.diary.columns:
+        _choice("diary.columns", k, DIARY_COLUMN_KEYS, source)
+    if cfg.scoring.lps_run_min <= 0:
+        _fail("scoring.lps_run_min", cfg.scoring.lps_run_min, "a positive number of minutes", source)
+    if cfg.scoring.min_wake_bout_min < 0:
+        _fail("scoring.min_wake_bout_min", cfg.scoring.min_wake_bout_min, "zero or more minutes", source)
+    ag = cfg.agreement
+    if not 0 < ag.clock_offset_max_min <= 180:
+        _fail("agreement.clock_offset_max_min", ag.clock_offset_max_min, "a number of minutes in (0, 180]", source)
+    if ag.clock_offset_flag_min < 0:
+        _fail("agreement.clock_offset_flag_min", ag.clock_offset_flag_min, "zero or more minutes", source)
+    return cfg
+
+
+def load_config(root: str | Path) -> StudyConfig:
+    """Read ``root/study.toml`` if it exists and validate it; defaults otherwise."""
+    root = Path(root)
+    path = root / "study.toml"
+    if not path.exists():
+        return build_config(root, {}, None)
+    try:
+        with path.open("rb") as fh:
+            data = tomllib.load(fh)
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError("study.toml", "(file)", f"valid TOML ({exc})", path) from exc
+    return build_config(root, data, path)

@@ -1,0 +1,83 @@
+"""The QC log: one structured list of problems that every stage appends to."""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+from typing import Iterable, Iterator, Literal
+
+Severity = Literal["info", "warning", "error"]
+SEVERITIES: tuple[str, ...] = ("info", "warning", "error")
+QC_COLUMNS = ["file", "participant", "night", "severity", "message"]
+
+
+@dataclass(frozen=True)
+class QCEntry:
+    """One problem found: where (file, participant, night), how bad, and what to fix."""
+
+    file: str
+    participant: str
+    night: str  # ISO date, or "" when the problem is not tied to a night
+    severity: Severity
+    message: str
+
+
+@dataclass
+class QCLog:
+    """Append-only list of QC entries, shared by readers' callers, scoring and fusion."""
+
+    entries: list[QCEntry] = field(default_factory=list)
+
+    def add(
+        self,
+        severity: Severity,
+        message: str,
+        *,
+        file: str | Path | None = "",
+        participant: str | None = "",
+        night: dt.date | str | None = "",
+    ) -> QCEntry:
+        if severity not in SEVERITIES:
+            raise ValueError(f"severity {severity!r} not in {SEVERITIES}")
+        if isinstance(night, dt.date):
+            night = night.isoformat()
+        entry = QCEntry(
+            file=str(file or ""),
+            participant=str(participant or ""),
+            night=str(night or ""),
+            severity=severity,
+            message=message,
+        )
+        self.entries.append(entry)
+        return entry
+
+    def info(self, message: str, **where) -> QCEntry:
+        return self.add("info", message, **where)
+
+    def warning(self, message: str, **where) -> QCEntry:
+        return self.add("warning", message, **where)
+
+    def error(self, message: str, **where) -> QCEntry:
+        return self.add("error", message, **where)
+
+    def extend(self, entries: Iterable[QCEntry]) -> None:
+        self.entries.extend(entries)
+
+    def __iter__(self) -> Iterator[QCEntry]:
+        return iter(self.entries)
+
+    def __len__(self) -> int:
+        return len(self.entries)
+
+    def for_participant(self, participant: str) -> list[QCEntry]:
+        return [e for e in self.entries if e.participant == participant]
+
+    def for_night(self, participant: str, night: str) -> list[QCEntry]:
+        return [e for e in self.entries if e.participant == participant and e.night == night]
+
+    def to_frame(self):
+        """The log as a pandas DataFrame with the columns of qc.csv."""
+        import pandas as pd
+
+        return pd.DataFrame([asdict(e) for e in self.entries], columns=QC_COLUMNS)

@@ -1,0 +1,112 @@
+"""Plain in-memory records that readers return; no sleep science here.
+
+All times are tz-aware ``pandas.Timestamp`` in the study's time zone.
+``Problem`` carries a non-fatal issue found while reading (a gap, a
+duplicate, an unknown label); the study loader turns problems into QC
+entries with file, participant and night.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+
+@dataclass(frozen=True)
+class Problem:
+    """A non-fatal reading problem; ``time`` (if known) places it on a night."""
+
+    severity: str  # "info" | "warning" | "error"
+    message: str
+    time: pd.Timestamp | None = None
+    night: dt.date | None = None
+
+
+@dataclass
+class Hypnogram:
+    """A PSG hypnogram: one stage code (sleepfuse.stages.Stage) per epoch.
+
+    ``start`` is the start of epoch 0; epochs are ``epoch_s`` seconds long and
+    contiguous in elapsed time. ``record_start`` is the EDF header start time.
+    Personal header fields (patient name, birth date) are never stored.
+    """
+
+    path: Path
+    record_start: pd.Timestamp
+    start: pd.Timestamp
+    epoch_s: float
+    stages: np.ndarray  # int8 Stage codes
+    lights_off: pd.Timestamp | None = None
+    lights_on: pd.Timestamp | None = None
+    unknown_labels: dict[str, int] = field(default_factory=dict)
+    problems: list[Problem] = field(default_factory=list)
+
+    @property
+    def n_epochs(self) -> int:
+        return int(self.stages.size)
+
+    @property
+    def end(self) -> pd.Timestamp:
+        return self.start + pd.Timedelta(seconds=self.epoch_s * self.n_epochs)
+
+    def epoch_times(self) -> pd.DatetimeIndex:
+        """Start time of every epoch (tz-aware)."""
+        return self.start + pd.to_timedelta(np.arange(self.n_epochs) * self.epoch_s, unit="s")
+
+
+@dataclass
+class ActigraphyRecord:
+    """Activity counts on a regular epoch grid (gaps filled with NaN counts).
+
+    ``start`` is the first epoch's start; epoch i starts at start + i·epoch_s
+    in elapsed time. ``off_wrist`` / ``marker`` are None when the file lacks them.
+    """
+
+    path: Path
+    start: pd.Timestamp
+    epoch_s: int
+    counts: np.ndarray  # float64, NaN where missing
+    off_wrist: np.ndarray | None = None  # bool
+    marker: np.ndarray | None = None  # bool
+    problems: list[Problem] = field(default_factory=list)
+
+    @property
+    def n_epochs(self) -> int:
+        return int(self.counts.size)
+
+    @property
+    def end(self) -> pd.Timestamp:
+        return self.start + pd.Timedelta(seconds=self.epoch_s * self.n_epochs)
+
+    def epoch_times(self) -> pd.DatetimeIndex:
+        return self.start + pd.to_timedelta(np.arange(self.n_epochs) * self.epoch_s, unit="s")
+
+
+@dataclass
+class DiaryEntry:
+    """One diary row: the night (date the evening began) and its entries."""
+
+    participant: str
+    night: dt.date
+    line: int  # line number in the source file (1 = header)
+    bedtime: pd.Timestamp | None = None
+    tried_to_sleep: pd.Timestamp | None = None
+    final_awakening: pd.Timestamp | None = None
+    out_of_bed: pd.Timestamp | None = None
+    sol_min: float | None = None
+    nwak: float | None = None
+    waso_min: float | None = None
+    quality: float | None = None
+
+
+@dataclass
+class Diary:
+    """All diary rows read from one file."""
+
+    path: Path
+    entries: list[DiaryEntry]
+    problems: list[Problem] = field(default_factory=list)
