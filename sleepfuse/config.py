@@ -18,7 +18,7 @@ from .timeutil import machine_timezone, zone
 
 ACTIGRAPHY_ALGORITHMS = ("cole-kripke", "sadeh")
 # Cole–Kripke 1992 1-min coefficient sets (see sleepfuse/scoring/actigraphy.py).
-COLE_KRIPKE_SETS = ("1min-mean", "1min-max")
+COLE_KRIPKE_SETS = ("1min-p0.001", "1min-p0.00001")
 NONWEAR_RULES = ("auto", "column", "choi", "none")
 STAGE_TARGETS = ("W", "N1", "N2", "N3", "R", "unscored")
 ACTIGRAPHY_COLUMN_KEYS = ("timestamp", "counts", "off_wrist", "marker")
@@ -42,6 +42,7 @@ class StudySection:
     timezone: str = ""
     timezone_from_machine: bool = False
     participant_pattern: str = ""  # regex with one group (or named group "participant")
+    participants: list[str] = field(default_factory=list)  # if given, files of other participants are reported and skipped
 
 
 @dataclass
@@ -63,7 +64,7 @@ class PsgSection:
 class ActigraphySection:
     columns: dict[str, str] = field(default_factory=dict)  # timestamp/counts/off_wrist/marker -> CSV name
     algorithm: str = "cole-kripke"
-    coefficients: str = "1min-mean"
+    coefficients: str = "1min-p0.001"
     count_scale: float = 1.0  # multiply device counts by this before scoring
     webster: bool = True
     nonwear: str = "auto"  # auto: column if present, else Choi
@@ -80,6 +81,7 @@ class DiarySection:
 class ScoringSection:
     lps_run_min: float = 10.0  # latency to persistent sleep: run length, minutes
     min_wake_bout_min: float = 0.0  # wake bouts shorter than this are not counted in nwak
+    max_invalid_pct: float = 50.0  # a night whose window is more than this % unscored/off-wrist is not included
 
 
 @dataclass
@@ -152,6 +154,10 @@ def _check_type(key: str, value: object, default: object, path: Path | None) -> 
         if not isinstance(value, str):
             _fail(key, value, "a string", path)
         return value
+    if isinstance(default, list):
+        if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+            _fail(key, value, "a list of strings", path)
+        return list(value)
     if isinstance(default, dict):
         if not isinstance(value, dict) or not all(isinstance(v, str) for v in value.values()):
             _fail(key, value, "a table of strings", path)
@@ -226,6 +232,8 @@ def build_config(root: str | Path, data: dict[str, Any] | None = None, source: P
         _fail("scoring.lps_run_min", cfg.scoring.lps_run_min, "a positive number of minutes", source)
     if cfg.scoring.min_wake_bout_min < 0:
         _fail("scoring.min_wake_bout_min", cfg.scoring.min_wake_bout_min, "zero or more minutes", source)
+    if not 0 <= cfg.scoring.max_invalid_pct <= 100:
+        _fail("scoring.max_invalid_pct", cfg.scoring.max_invalid_pct, "a percentage from 0 to 100", source)
     ag = cfg.agreement
     if not 0 < ag.clock_offset_max_min <= 180:
         _fail("agreement.clock_offset_max_min", ag.clock_offset_max_min, "a number of minutes in (0, 180]", source)

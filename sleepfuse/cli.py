@@ -1,0 +1,90 @@
+"""The ``sleepfuse`` command line: check, score, batch, explore and open a study.
+
+Data go to files, progress and diagnostics to stderr. Exit status: 0 on
+success, 1 when nothing could be processed, 2 when the command line or the
+configuration is wrong.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from . import RESEARCH_CAUTION, __version__
+from .errors import ConfigError
+
+EXIT_OK, EXIT_NOTHING, EXIT_USAGE = 0, 1, 2
+
+
+def _study_dir(value: str) -> Path:
+    path = Path(value)
+    if not path.is_dir():
+        raise argparse.ArgumentTypeError(f"{value!r} is not a folder; give the study folder (with psg/, actigraphy/, diary/)")
+    return path
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="sleepfuse",
+        description=(
+            "Sleep parameters from PSG hypnograms (EDF+), actigraphy counts and sleep diaries under one set of "
+            "definitions; agreement between the instruments; one participant x feature matrix with a codebook."
+        ),
+        epilog=RESEARCH_CAUTION,
+    )
+    parser.add_argument("--version", action="version", version=f"sleepfuse {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+
+    p = sub.add_parser(
+        "check",
+        help="read every file of a study and print the QC log and the nights per instrument",
+        description="Read every file of STUDY, print the QC log and, per participant, the nights each instrument covers.",
+    )
+    p.add_argument("study", type=_study_dir, metavar="STUDY", help="study folder (psg/, actigraphy/, diary/, study.toml)")
+    p.add_argument("--quiet", action="store_true", help="print only warnings and errors of the QC log")
+    p.set_defaults(func=_run_check)
+
+    _add_later_commands(sub)
+    return parser
+
+
+def _add_later_commands(sub) -> None:
+    """Commands whose modules import heavier dependencies register themselves here."""
+    from . import commands
+
+    commands.register(sub)
+
+
+def _run_check(args: argparse.Namespace) -> int:
+    from .report import print_check
+    from .study import load_study
+
+    try:
+        study = load_study(args.study)
+    except ConfigError as exc:
+        print(f"sleepfuse: configuration error: {exc}", file=sys.stderr)
+        return EXIT_USAGE
+    print_check(study, quiet=args.quiet, out=sys.stdout)
+    readable = any(p.hypnograms or p.actigraphy or p.diary for p in study.participants.values())
+    return EXIT_OK if readable else EXIT_NOTHING
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "func", None):
+        parser.print_help(sys.stderr)
+        return EXIT_USAGE
+    try:
+        return int(args.func(args))
+    except ConfigError as exc:
+        print(f"sleepfuse: configuration error: {exc}", file=sys.stderr)
+        return EXIT_USAGE
+    except KeyboardInterrupt:
+        print("sleepfuse: interrupted; no partial output was left behind", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

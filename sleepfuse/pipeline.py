@@ -1,0 +1,101 @@
+"""One pipeline for both front ends: read a study, score every participant, build the night table.
+
+``process_participant`` is the unit of work (one participant's files in,
+scored nights and QC entries out), so batch can run participants one at a
+time or in parallel workers with bounded memory.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable, Iterable
+
+import pandas as pd
+
+from .config import StudyConfig, load_config
+from .qc import QCEntry, QCLog
+from .records import DiaryEntry
+from .scoring.nights import ScoredParticipant, night_table, rhythm_table, score_participant
+from .study import SOURCES, discover, load_participant, read_combined_diaries
+
+
+@dataclass
+class StudyResult:
+    """The scored study: night table, rhythm per participant, QC log, per-participant detail."""
+
+    config: StudyConfig
+    nights: pd.DataFrame
+    rhythm: pd.DataFrame
+    qc: QCLog
+    participants: dict[str, ScoredParticipant] = field(default_factory=dict)
+    files: list[Path] = field(default_factory=list)
+
+
+@dataclass(frozen=True)
+class ParticipantJob:
+    """Everything one worker needs to process one participant."""
+
+    participant: str
+    files: dict[str, list[Path]]
+    extra_diary: tuple[DiaryEntry, ...] = ()
+
+
+def plan_jobs(config: StudyConfig, qc: QCLog) -> tuple[list[ParticipantJob], list[Path]]:
+    """Discover the study's files and make one job per participant."""
+    found = discover(config, qc)
+    combined = read_combined_diaries(config, found.combined_diaries, qc)
+    ids = sorted(set(found.by_participant) | set(combined))
+    jobs = [
+        ParticipantJob(pid, found.by_participant.get(pid, {s: [] for s in SOURCES}), tuple(combined.get(pid, ())))
+        for pid in ids
+    ]
+    return jobs, found.all_files
+
+
+def process_participant(config: StudyConfig, job: ParticipantJob) -> tuple[ScoredParticipant, list[QCEntry]]:
+    """Read and score one participant; an unexpected failure becomes a QC error, not a crash."""
+    qc = QCLog()
+    try:
+        rec = load_participant(config, job.participant, job.files, qc, job.extra_diary)
+        scored = score_participant(config, rec, qc)
+    except Exception as exc:  # one participant never stops the study
+        qc.error(f"participant not processed: {type(exc).__name__}: {exc}", participant=job.participant)
+        scored = ScoredParticipant(job.participant)
+    return scored, qc.entries
+
+
+def run_study(
+    root: str | Path,
+    *,
+    config: StudyConfig | None = None,
+    progress: Callable[[str, int, int], None] | None = None,
+    keep_detail: bool = True,
+) -> StudyResult:
+    """Score a whole study in this process, participant by participant."""
+    config = config if config is not None else load_config(root)
+    qc = QCLog()
+    if config.study.timezone_from_machine:
+        qc.info(f"study.toml gives no [study] timezone; using this machine's zone {config.timezone}", file="study.toml")
+    jobs, files = plan_jobs(config, qc)
+    scored: list[ScoredParticipant] = []
+    for i, job in enumerate(jobs):
+        if progress:
+            progress(job.participant, i, len(jobs))
+        s, entries = process_participant(config, job)
+        qc.extend(entries)
+        scored.append(s)
+    return assemble(config, scored, qc, files, keep_detail=keep_detail)
+
+
+def assemble(config: StudyConfig, scored: Iterable[ScoredParticipant], qc: QCLog, files: list[Path],
+             *, keep_detail: bool = True) -> StudyResult:
+    scored = list(scored)
+    return StudyResult(
+        config=config,
+        nights=night_table(scored),
+        rhythm=rhythm_table(scored),
+        qc=qc,
+        participants={s.participant: s for s in scored} if keep_detail else {},
+        files=files,
+    )

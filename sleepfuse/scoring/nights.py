@@ -1,0 +1,290 @@
+"""The night table: one row per (participant, night, source), every parameter by one set of definitions.
+
+This is the only table later stages read. Per participant, ``score_participant``
+scores each instrument on each night's sleep opportunity and keeps the epoch
+series that epoch-by-epoch agreement and the night view need.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from ..config import StudyConfig
+from ..qc import QCLog
+from ..records import ActigraphyRecord, DiaryEntry, Hypnogram
+from ..stages import Stage
+from ..study import ParticipantRecords, actigraphy_nights, hypnogram_night
+from .actigraphy import epochs_to_minutes, score_sleep_wake
+from .diary import DIARY_PARAMETERS, DiaryRowRejected, diary_parameters
+from .nonwear import choi_nonwear
+from .opportunity import Window, cut_window, detector_window, diary_window, marker_window, psg_window
+from .parameters import COMMON_PARAMETERS, STAGE_PARAMETERS, sleep_parameters
+from .rhythm import RHYTHM_PARAMETERS, rest_activity_rhythm
+
+KEY_COLUMNS = ["participant", "night", "source"]
+WINDOW_COLUMNS = ["window_start", "window_end", "window_rule"]
+PARAMETER_COLUMNS = list(
+    dict.fromkeys([*COMMON_PARAMETERS, *STAGE_PARAMETERS, "unscored_min", "offwrist_min", "in_bed_min", "quality"])
+)
+NIGHT_COLUMNS = KEY_COLUMNS + WINDOW_COLUMNS + PARAMETER_COLUMNS + ["included", "qc"]
+SOURCE_PARAMETERS = {
+    "psg": [*COMMON_PARAMETERS, *STAGE_PARAMETERS, "unscored_min"],
+    "actigraphy": [*COMMON_PARAMETERS, "offwrist_min"],
+    "diary": list(DIARY_PARAMETERS),
+}
+
+
+@dataclass
+class ActigraphyScoring:
+    """One actigraphy record scored per minute: counts, sleep/wake, validity, state codes."""
+
+    path: Path
+    start: pd.Timestamp  # start of minute 0
+    counts: np.ndarray  # counts per minute (device scale), NaN where missing
+    sleep: np.ndarray  # bool per minute (algorithm output)
+    nonwear: np.ndarray  # bool per minute
+    codes: np.ndarray  # Stage per minute: SLEEP / WAKE / OFFWRIST / UNSCORED
+    marker: np.ndarray | None  # bool per minute
+    nonwear_rule: str
+
+    @property
+    def valid(self) -> np.ndarray:
+        return (self.codes == Stage.SLEEP) | (self.codes == Stage.WAKE)
+
+    def minute_times(self) -> pd.DatetimeIndex:
+        return self.start + pd.to_timedelta(np.arange(self.codes.size), unit="min")
+
+    def covers(self, night: dt.date) -> bool:
+        end = self.start + pd.Timedelta(minutes=self.codes.size)
+        return self.start.date() <= night + dt.timedelta(days=1) and end.date() >= night
+
+
+@dataclass
+class ScoredParticipant:
+    """Everything scored for one participant: night rows, epoch series, rhythm."""
+
+    participant: str
+    rows: list[dict] = field(default_factory=list)
+    hypnograms: dict[str, Hypnogram] = field(default_factory=dict)  # ISO night -> hypnogram
+    actigraphy: list[ActigraphyScoring] = field(default_factory=list)
+    rhythm: dict[str, float] = field(default_factory=dict)
+    windows: dict[tuple[str, str], Window] = field(default_factory=dict)  # (night, source) -> window
+
+
+def _row(participant: str, night: dt.date, source: str) -> dict:
+    row = {c: math.nan for c in PARAMETER_COLUMNS}
+    row.update(participant=participant, night=night.isoformat(), source=source,
+               window_start="", window_end="", window_rule="", included=True, qc="")
+    return row
+
+
+def _set_window(row: dict, w: Window) -> None:
+    row["window_start"] = w.start.isoformat()
+    row["window_end"] = w.end.isoformat()
+    row["window_rule"] = w.rule
+
+
+class _Notes:
+    """QC notes for one row: kept on the row and appended to the study's QC log."""
+
+    def __init__(self, qc: QCLog, row: dict, file: str):
+        self.qc, self.row, self.file = qc, row, file
+
+    def __call__(self, severity: str, message: str, *, exclude: bool = False) -> None:
+        self.qc.add(severity, f"{self.row['source']}: {message}", file=self.file,
+                    participant=self.row["participant"], night=self.row["night"])
+        self.row["qc"] = f"{self.row['qc']}; {message}" if self.row["qc"] else message
+        if exclude:
+            self.row["included"] = False
+
+
+def _check_invalid(row: dict, params: dict, note: _Notes, config: StudyConfig) -> None:
+    tib = params.get("tib_min", math.nan)
+    invalid = (params.get("unscored_min") or 0.0) + (params.get("offwrist_min") or 0.0)
+    if tib and tib > 0 and 100.0 * invalid / tib > config.scoring.max_invalid_pct:
+        note("warning", f"{invalid:.0f} of {tib:.0f} min of the sleep opportunity are unscored or off-wrist "
+                        f"(over {config.scoring.max_invalid_pct:g}%): night not included", exclude=True)
+
+
+def _rel(path: Path, config: StudyConfig) -> str:
+    try:
+        return str(Path(path).relative_to(config.root))
+    except ValueError:
+        return str(path)
+
+
+def score_psg(config: StudyConfig, participant: str, h: Hypnogram, qc: QCLog, out: ScoredParticipant) -> None:
+    night = hypnogram_night(h)
+    row = _row(participant, night, "psg")
+    note = _Notes(qc, row, _rel(h.path, config))
+    window, why = psg_window(h)
+    out.hypnograms[row["night"]] = h
+    if window is None:
+        note("error", why, exclude=True)
+        out.rows.append(row)
+        return
+    if why:
+        note("warning", why)
+    _set_window(row, window)
+    out.windows[(row["night"], "psg")] = window
+    codes, outside = cut_window(h.start, h.epoch_s, h.stages, window)
+    if outside > 0:
+        note("warning", f"{outside:.1f} min of the sleep opportunity lie outside the scored hypnogram (counted unscored)")
+    params = sleep_parameters(codes, h.epoch_s, staged=True, lps_run_min=config.scoring.lps_run_min,
+                              min_wake_bout_min=config.scoring.min_wake_bout_min)
+    for k in SOURCE_PARAMETERS["psg"]:
+        row[k] = params[k]
+    if h.unknown_labels:
+        labels = ", ".join(f"{k!r} ({v} epochs)" for k, v in h.unknown_labels.items())
+        note("warning", f"unknown stage labels counted as unscored: {labels}")
+    _check_invalid(row, params, note, config)
+    out.rows.append(row)
+
+
+def score_actigraphy_record(config: StudyConfig, rec: ActigraphyRecord, qc: QCLog, participant: str) -> ActigraphyScoring:
+    """Sleep/wake and non-wear per minute for one record (SLEEP_PARAMETERS.md, actigraphy)."""
+    settings = config.actigraphy
+    per = int(round(60 / rec.epoch_s))
+    minutes = epochs_to_minutes(rec.counts, rec.epoch_s)
+    n_min = minutes.size
+    sleep = score_sleep_wake(rec.counts, rec.epoch_s, settings)[:n_min]
+    rule = settings.nonwear
+    has_column = rec.off_wrist is not None
+    if rule == "column" and not has_column:
+        qc.warning("actigraphy.nonwear = 'column' but the file has no off_wrist column: no non-wear detected",
+                   file=_rel(rec.path, config), participant=participant)
+    if (rule in ("auto", "column")) and has_column:
+        nonwear = rec.off_wrist[: n_min * per].reshape(n_min, per).any(axis=1)
+        used = "off_wrist column"
+    elif rule in ("auto", "choi"):
+        nonwear = choi_nonwear(minutes)
+        used = "Choi et al. 2011"
+    else:
+        nonwear = np.zeros(n_min, dtype=bool)
+        used = "none"
+    missing = np.isnan(minutes)
+    codes = np.where(sleep, Stage.SLEEP, Stage.WAKE).astype(np.int8)
+    codes[nonwear] = Stage.OFFWRIST
+    codes[missing & ~nonwear] = Stage.UNSCORED
+    marker = None
+    if rec.marker is not None:
+        marker = rec.marker[: n_min * per].reshape(n_min, per).any(axis=1)
+    return ActigraphyScoring(rec.path, rec.start, minutes, sleep, nonwear, codes, marker, used)
+
+
+def score_actigraphy_night(
+    config: StudyConfig,
+    participant: str,
+    night: dt.date,
+    scoring: ActigraphyScoring,
+    diary: DiaryEntry | None,
+    qc: QCLog,
+    out: ScoredParticipant,
+) -> None:
+    row = _row(participant, night, "actigraphy")
+    note = _Notes(qc, row, _rel(scoring.path, config))
+    tz = config.timezone
+    window = diary_window(diary)
+    if window is None and scoring.marker is not None:
+        window = marker_window(scoring.minute_times(), scoring.marker, night, tz)
+    if window is None:
+        window = detector_window(scoring.start, scoring.sleep & scoring.valid, scoring.valid, night, tz)
+    if window is None:
+        note("info", "no sleep opportunity: no diary times, no event markers, and no rest interval found", exclude=True)
+        out.rows.append(row)
+        return
+    note("info", f"sleep opportunity from {window.rule}")
+    _set_window(row, window)
+    out.windows[(row["night"], "actigraphy")] = window
+    codes, outside = cut_window(scoring.start, 60.0, scoring.codes, window)
+    if outside > 0:
+        note("warning", f"{outside:.0f} min of the sleep opportunity lie outside the recording (counted unscored)")
+    params = sleep_parameters(codes, 60.0, staged=False, lps_run_min=config.scoring.lps_run_min,
+                              min_wake_bout_min=config.scoring.min_wake_bout_min)
+    for k in SOURCE_PARAMETERS["actigraphy"]:
+        row[k] = params[k]
+    _check_invalid(row, params, note, config)
+    out.rows.append(row)
+
+
+def score_diary_entry(config: StudyConfig, participant: str, entry: DiaryEntry, qc: QCLog, out: ScoredParticipant,
+                      file: str = "") -> DiaryEntry | None:
+    """Diary parameters of one row; returns the entry if usable, None if rejected."""
+    row = _row(participant, entry.night, "diary")
+    note = _Notes(qc, row, file)
+    try:
+        params = diary_parameters(entry)
+    except DiaryRowRejected as exc:
+        note("error", f"diary row rejected: {exc}", exclude=True)
+        out.rows.append(row)
+        return None
+    for k in SOURCE_PARAMETERS["diary"]:
+        row[k] = params[k]
+    w = diary_window(entry)
+    if w is not None:
+        _set_window(row, w)
+        out.windows[(row["night"], "diary")] = w
+    else:
+        note("warning", "tried to sleep or out of bed missing: no sleep opportunity", exclude=True)
+    out.rows.append(row)
+    return entry
+
+
+def score_participant(config: StudyConfig, rec: ParticipantRecords, qc: QCLog) -> ScoredParticipant:
+    """Score every instrument on every night of one participant."""
+    out = ScoredParticipant(rec.participant)
+    usable_diary: dict[dt.date, DiaryEntry] = {}
+    for entry in rec.diary:
+        kept = score_diary_entry(config, rec.participant, entry, qc, out)
+        if kept is not None and diary_window(kept) is not None:
+            usable_diary[entry.night] = kept
+    for h in rec.hypnograms:
+        score_psg(config, rec.participant, h, qc, out)
+    done: set[dt.date] = set()
+    best: ActigraphyRecord | None = None
+    for a in sorted(rec.actigraphy, key=lambda a: a.start):
+        scoring = score_actigraphy_record(config, a, qc, rec.participant)
+        out.actigraphy.append(scoring)
+        for night in actigraphy_nights(a):
+            if night in done:
+                qc.warning(f"night {night} is covered by two actigraphy files; the first is used",
+                           file=_rel(a.path, config), participant=rec.participant, night=night)
+                continue
+            done.add(night)
+            score_actigraphy_night(config, rec.participant, night, scoring, usable_diary.get(night), qc, out)
+        if best is None or a.n_epochs > best.n_epochs:
+            best, best_scoring = a, scoring
+    if best is not None:
+        per = int(round(60 / best.epoch_s))
+        nonwear_epoch = np.zeros(best.n_epochs, dtype=bool)
+        nw = np.repeat(best_scoring.nonwear, per)
+        nonwear_epoch[: nw.size] = nw
+        valid = ~nonwear_epoch & ~np.isnan(best.counts)
+        out.rhythm = rest_activity_rhythm(best.start, best.epoch_s, best.counts, valid)
+    return out
+
+
+def night_table(scored: list[ScoredParticipant]) -> pd.DataFrame:
+    """The night table of many participants, sorted, with the documented column order."""
+    rows = [r for s in scored for r in s.rows]
+    df = pd.DataFrame(rows, columns=NIGHT_COLUMNS)
+    if df.empty:
+        return df
+    order = {"psg": 0, "actigraphy": 1, "diary": 2}
+    df["_o"] = df["source"].map(order)
+    df = df.sort_values(["participant", "night", "_o"], kind="stable").drop(columns="_o").reset_index(drop=True)
+    df["included"] = df["included"].astype(bool)
+    return df
+
+
+def rhythm_table(scored: list[ScoredParticipant]) -> pd.DataFrame:
+    """IS, IV, M10, L5, RA per participant (Van Someren et al. 1999)."""
+    cols = list(RHYTHM_PARAMETERS)
+    rows = [{"participant": s.participant, **{k: s.rhythm.get(k, math.nan) for k in cols}} for s in scored]
+    return pd.DataFrame(rows, columns=["participant", *cols])

@@ -1,0 +1,292 @@
+"""The study folder: discover files by the folder contract, read them, place them on nights.
+
+A bad file is reported in the QC log (file, participant, night, reason) and
+skipped; it never stops the rest of the study.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import hashlib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable, Iterable
+
+import pandas as pd
+
+from .config import StudyConfig, load_config
+from .errors import ReadError
+from .qc import QCLog
+from .records import ActigraphyRecord, DiaryEntry, Hypnogram, Problem
+from .timeutil import night_of
+
+SOURCES = ("psg", "actigraphy", "diary")
+
+
+@dataclass
+class ParticipantRecords:
+    """Everything read for one participant, with the nights each instrument covers."""
+
+    participant: str
+    hypnograms: list[Hypnogram] = field(default_factory=list)
+    actigraphy: list[ActigraphyRecord] = field(default_factory=list)
+    diary: list[DiaryEntry] = field(default_factory=list)
+    files: list[Path] = field(default_factory=list)
+
+    def nights(self, source: str) -> list[dt.date]:
+        """Sorted nights on which ``source`` has data (noon-to-noon rule)."""
+        if source == "psg":
+            found = {hypnogram_night(h) for h in self.hypnograms}
+        elif source == "actigraphy":
+            found = {n for rec in self.actigraphy for n in actigraphy_nights(rec)}
+        elif source == "diary":
+            found = {e.night for e in self.diary}
+        else:
+            raise ValueError(f"unknown source {source!r}; allowed: {', '.join(SOURCES)}")
+        return sorted(found)
+
+
+@dataclass
+class Study:
+    config: StudyConfig
+    participants: dict[str, ParticipantRecords]
+    qc: QCLog
+    files: list[Path]  # every input file found (read or not)
+
+    @property
+    def participant_ids(self) -> list[str]:
+        return sorted(self.participants)
+
+
+@dataclass
+class StudyFiles:
+    """Files found by the folder contract, grouped by participant and source."""
+
+    by_participant: dict[str, dict[str, list[Path]]]
+    combined_diaries: list[Path]  # diary files without a participant in their name
+    all_files: list[Path]
+
+
+def hypnogram_night(h: Hypnogram) -> dt.date:
+    """A PSG recording's night: the night its sleep opportunity (or recording) begins."""
+    return night_of(h.lights_off if h.lights_off is not None else h.start)
+
+
+def actigraphy_nights(rec: ActigraphyRecord) -> list[dt.date]:
+    """Every night (noon-to-noon day) that an actigraphy record overlaps."""
+    if rec.n_epochs == 0:
+        return []
+    first = night_of(rec.start)
+    last = night_of(rec.end - pd.Timedelta(seconds=rec.epoch_s))
+    return [first + dt.timedelta(days=i) for i in range((last - first).days + 1)]
+
+
+def sha256_of(path: Path, chunk: int = 1 << 20) -> str:
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(chunk), b""):
+            h.update(block)
+    return h.hexdigest()
+
+
+def discover(config: StudyConfig, qc: QCLog) -> StudyFiles:
+    """Find the study's files by the folder contract and assign each to a participant."""
+    root = config.root
+    patterns = {"psg": config.files.psg, "actigraphy": config.files.actigraphy, "diary": config.files.diary}
+    by_participant: dict[str, dict[str, list[Path]]] = {}
+    combined: list[Path] = []
+    all_files: list[Path] = []
+    allowed = set(config.study.participants)
+    for source, pattern in patterns.items():
+        for path in sorted(root.glob(pattern)):
+            if not path.is_file():
+                continue
+            all_files.append(path)
+            rel = _rel(path, root)
+            participant = config.participant_of(path)
+            if source == "diary" and (participant is None or ("_" not in path.stem and not config.study.participant_pattern)):
+                combined.append(path)
+                continue
+            if participant is None:
+                qc.error(
+                    f"cannot tell the participant from the file name; expected <participant>_<anything>"
+                    f"{' matching ' + repr(config.study.participant_pattern) if config.study.participant_pattern else ''}",
+                    file=rel,
+                )
+                continue
+            if allowed and participant not in allowed:
+                qc.error(
+                    f"participant {participant!r} is not in [study] participants of study.toml; file skipped",
+                    file=rel,
+                    participant=participant,
+                )
+                continue
+            by_participant.setdefault(participant, {s: [] for s in SOURCES})[source].append(path)
+    if not all_files:
+        qc.error(
+            f"no input files found under {root} (looked for {', '.join(patterns.values())})",
+            file=str(root),
+        )
+    return StudyFiles(by_participant, combined, all_files)
+
+
+def _rel(path: Path, root: Path) -> str:
+    try:
+        return str(path.relative_to(root))
+    except ValueError:
+        return str(path)
+
+
+def _report_problems(qc: QCLog, problems: Iterable[Problem], *, file: str, participant: str) -> None:
+    for p in problems:
+        night = p.night if p.night is not None else (night_of(p.time) if p.time is not None else "")
+        qc.add(p.severity if p.severity in ("info", "warning", "error") else "warning", p.message,
+               file=file, participant=participant, night=night)
+
+
+def read_hypnogram_file(config: StudyConfig, path: Path) -> Hypnogram:
+    from .readers.edf import read_hypnogram
+
+    return read_hypnogram(
+        path,
+        config.timezone,
+        epoch_s=config.psg.epoch_s,
+        labels=config.psg.labels,
+        signal_label=config.psg.signal_label,
+        signal_codes=config.psg.signal_codes,
+    )
+
+
+def read_actigraphy_file(config: StudyConfig, path: Path) -> ActigraphyRecord:
+    from .readers.actigraphy import read_actigraphy
+
+    return read_actigraphy(path, config.timezone, columns=config.actigraphy.columns)
+
+
+def read_diary_file(config: StudyConfig, path: Path, participant: str | None):
+    from .readers.diary import read_diary
+
+    return read_diary(path, config.timezone, columns=config.diary.columns, participant=participant)
+
+
+def load_participant(
+    config: StudyConfig,
+    participant: str,
+    files: dict[str, list[Path]],
+    qc: QCLog,
+    extra_diary: Iterable[DiaryEntry] = (),
+) -> ParticipantRecords:
+    """Read one participant's files; each bad file becomes a QC error and is skipped."""
+    rec = ParticipantRecords(participant)
+    root = config.root
+    for path in files.get("psg", []):
+        rel = _rel(path, root)
+        rec.files.append(path)
+        try:
+            h = read_hypnogram_file(config, path)
+        except ReadError as exc:
+            qc.error(f"PSG file not read: {exc.reason}", file=rel, participant=participant)
+            continue
+        _report_problems(qc, h.problems, file=rel, participant=participant)
+        rec.hypnograms.append(h)
+    for path in files.get("actigraphy", []):
+        rel = _rel(path, root)
+        rec.files.append(path)
+        try:
+            a = read_actigraphy_file(config, path)
+        except ReadError as exc:
+            qc.error(f"actigraphy file not read: {exc.reason}", file=rel, participant=participant)
+            continue
+        _report_problems(qc, a.problems, file=rel, participant=participant)
+        rec.actigraphy.append(a)
+    for path in files.get("diary", []):
+        rel = _rel(path, root)
+        rec.files.append(path)
+        try:
+            d = read_diary_file(config, path, participant)
+        except ReadError as exc:
+            qc.error(f"diary file not read: {exc.reason}", file=rel, participant=participant)
+            continue
+        _report_problems(qc, d.problems, file=rel, participant=participant)
+        rec.diary.extend(e for e in d.entries if e.participant == participant)
+    rec.diary.extend(extra_diary)
+    _check_duplicate_nights(rec, qc, config)
+    return rec
+
+
+def _check_duplicate_nights(rec: ParticipantRecords, qc: QCLog, config: StudyConfig) -> None:
+    """Two PSG recordings or two diary rows on one night: keep the first, report the rest."""
+    seen: dict[dt.date, Hypnogram] = {}
+    kept: list[Hypnogram] = []
+    for h in sorted(rec.hypnograms, key=lambda h: h.start):
+        n = hypnogram_night(h)
+        if n in seen:
+            qc.error(
+                f"second PSG recording on night {n} (first: {_rel(seen[n].path, config.root)}); this one is skipped",
+                file=_rel(h.path, config.root), participant=rec.participant, night=n,
+            )
+            continue
+        seen[n] = h
+        kept.append(h)
+    rec.hypnograms = kept
+    seen_d: dict[dt.date, DiaryEntry] = {}
+    kept_d: list[DiaryEntry] = []
+    for e in rec.diary:
+        if e.night in seen_d:
+            qc.error(
+                f"second diary row for night {e.night} (line {e.line}); the first (line {seen_d[e.night].line}) is kept",
+                participant=rec.participant, night=e.night,
+            )
+            continue
+        seen_d[e.night] = e
+        kept_d.append(e)
+    rec.diary = sorted(kept_d, key=lambda e: e.night)
+
+
+def read_combined_diaries(config: StudyConfig, paths: Iterable[Path], qc: QCLog) -> dict[str, list[DiaryEntry]]:
+    """Diary files holding many participants (a ``participant`` column)."""
+    out: dict[str, list[DiaryEntry]] = {}
+    allowed = set(config.study.participants)
+    for path in paths:
+        rel = _rel(path, config.root)
+        try:
+            d = read_diary_file(config, path, None)
+        except ReadError as exc:
+            qc.error(f"diary file not read: {exc.reason}", file=rel)
+            continue
+        _report_problems(qc, d.problems, file=rel, participant="")
+        for e in d.entries:
+            if allowed and e.participant not in allowed:
+                qc.error(f"participant {e.participant!r} (line {e.line}) is not in [study] participants; row skipped",
+                         file=rel, participant=e.participant, night=e.night)
+                continue
+            out.setdefault(e.participant, []).append(e)
+    return out
+
+
+def load_study(
+    root: str | Path,
+    *,
+    config: StudyConfig | None = None,
+    qc: QCLog | None = None,
+    progress: Callable[[str, int, int], None] | None = None,
+) -> Study:
+    """Read a whole study folder. ``progress(participant, i, n)`` is called per participant."""
+    root = Path(root)
+    qc = qc if qc is not None else QCLog()
+    config = config if config is not None else load_config(root)
+    if config.study.timezone_from_machine:
+        qc.info(
+            f"study.toml gives no [study] timezone; using this machine's zone {config.timezone}",
+            file="study.toml",
+        )
+    found = discover(config, qc)
+    combined = read_combined_diaries(config, found.combined_diaries, qc)
+    ids = sorted(set(found.by_participant) | set(combined))
+    participants: dict[str, ParticipantRecords] = {}
+    for i, pid in enumerate(ids):
+        if progress:
+            progress(pid, i, len(ids))
+        files = found.by_participant.get(pid, {s: [] for s in SOURCES})
+        participants[pid] = load_participant(config, pid, files, qc, combined.get(pid, ()))
+    return Study(config=config, participants=participants, qc=qc, files=found.all_files)
