@@ -1,0 +1,174 @@
+"""Sleep parameters of one sleep opportunity from its epoch codes (SLEEP_PARAMETERS.md).
+
+The caller cuts the window [start, end) (lights off to lights on, or tried to
+sleep to out of bed) and passes the Stage codes of the epochs inside it. The
+definitions follow the AASM scoring manual (total recording time, sleep
+latency, TST, sleep efficiency, REM latency) with the sleepfuse conventions
+written in SLEEP_PARAMETERS.md: WASO stops at the end of the last sleep epoch
+and the wake after it is reported separately as ``terminal_wake_min``;
+unscored and off-wrist epochs are neither sleep nor wake.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..stages import Stage, is_sleep
+
+COMMON_PARAMETERS = (
+    "tib_min",
+    "sol_min",
+    "lps_min",
+    "tst_min",
+    "spt_min",
+    "waso_min",
+    "terminal_wake_min",
+    "se_pct",
+    "nwak",
+)
+STAGE_PARAMETERS = (
+    "n1_min",
+    "n2_min",
+    "n3_min",
+    "rem_min",
+    "n1_pct",
+    "n2_pct",
+    "n3_pct",
+    "rem_pct",
+    "rem_latency_min",
+)
+EXTRA_PARAMETERS = ("unscored_min", "offwrist_min")
+
+_VALID_CODES = np.array([int(s) for s in Stage])
+_NAN = float("nan")
+
+
+def _runs(x: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Run-length encoding of a 1-D integer/bool array: (starts, lengths, values)."""
+    x = np.asarray(x)
+    n = x.size
+    if n == 0:
+        empty = np.zeros(0, dtype=np.intp)
+        return empty, empty, x[:0]
+    change = np.flatnonzero(x[1:] != x[:-1]) + 1
+    starts = np.concatenate(([0], change))
+    lengths = np.diff(np.concatenate((starts, [n])))
+    return starts, lengths, x[starts]
+
+
+def _min_epochs(minutes: float, epoch_min: float, *, at_least: int = 1) -> int:
+    """Smallest whole number of epochs spanning at least ``minutes`` (float-safe)."""
+    return max(at_least, math.ceil(minutes / epoch_min - 1e-9))
+
+
+def _check_codes(codes: np.ndarray) -> np.ndarray:
+    codes = np.asarray(codes)
+    if codes.ndim != 1:
+        raise ValueError(f"stage codes must be a 1-D array, got shape {codes.shape}")
+    if codes.size and not np.issubdtype(codes.dtype, np.integer):
+        if not np.all(np.isfinite(codes)) or np.any(codes != np.round(codes)):
+            raise ValueError("stage codes must be integers (sleepfuse.stages.Stage values)")
+    codes = codes.astype(np.int16, copy=False)
+    bad = ~np.isin(codes, _VALID_CODES)
+    if bad.any():
+        raise ValueError(
+            f"unknown stage code(s) {sorted(set(codes[bad].tolist()))}; "
+            f"allowed: {sorted(_VALID_CODES.tolist())} (sleepfuse.stages.Stage)"
+        )
+    return codes
+
+
+def sleep_parameters(
+    codes: np.ndarray,
+    epoch_s: float,
+    *,
+    staged: bool = False,
+    lps_run_min: float = 10.0,
+    min_wake_bout_min: float = 0.0,
+) -> dict[str, float]:
+    """Standard sleep parameters (minutes, %, counts) of one sleep opportunity.
+
+    ``codes``: Stage codes of the epochs in [start, end); ``epoch_s``: epoch
+    length in seconds. Returns COMMON_PARAMETERS + ``unscored_min`` +
+    ``offwrist_min``, and STAGE_PARAMETERS when ``staged`` (PSG).
+
+    Definitions (AASM manual; SLEEP_PARAMETERS.md):
+
+    - tib = n · epoch / 60 (total recording time of the window);
+    - sol = start to the first sleep epoch (N1, N2, N3, R or unstaged S);
+    - lps = start to the first epoch of the first run of ≥ ``lps_run_min``
+      minutes of uninterrupted sleep (wake, unscored and off-wrist interrupt);
+    - tst = sleep epochs; spt = first sleep epoch to end of last sleep epoch;
+    - waso = wake epochs inside the SPT, so spt = tst + waso + unscored and
+      off-wrist epochs inside the SPT;
+    - terminal_wake = end of last sleep epoch to the end of the window (a span,
+      whatever its epochs hold), so tib = sol + spt + terminal_wake;
+    - se = 100 · tst / tib;
+    - nwak = maximal runs of consecutive wake epochs inside the SPT lasting
+      ≥ max(1 epoch, ``min_wake_bout_min``); an unscored/off-wrist epoch ends a run;
+    - stage minutes over the whole window, ``*_pct`` = 100 · stage / tst;
+    - rem_latency = first sleep epoch to the first R epoch.
+
+    No sleep at all: tst 0, se 0, spt 0, waso 0, nwak 0 and sol, lps,
+    terminal_wake, rem_latency, ``*_pct`` NaN. Empty window: tib 0, all else NaN.
+    """
+    if not epoch_s > 0:
+        raise ValueError(f"epoch_s must be a positive number of seconds, got {epoch_s!r}")
+    if not lps_run_min > 0:
+        raise ValueError(f"lps_run_min must be a positive number of minutes, got {lps_run_min!r}")
+    if not min_wake_bout_min >= 0:
+        raise ValueError(f"min_wake_bout_min must be zero or more minutes, got {min_wake_bout_min!r}")
+    codes = _check_codes(codes)
+    keys = COMMON_PARAMETERS + EXTRA_PARAMETERS + (STAGE_PARAMETERS if staged else ())
+    n = codes.size
+    ep = float(epoch_s) / 60.0  # minutes per epoch
+    out: dict[str, float] = {k: _NAN for k in keys}
+    out["tib_min"] = n * ep
+    if n == 0:
+        return out
+
+    sleep = is_sleep(codes)
+    wake = codes == Stage.WAKE
+    out["unscored_min"] = float(np.count_nonzero(codes == Stage.UNSCORED)) * ep
+    out["offwrist_min"] = float(np.count_nonzero(codes == Stage.OFFWRIST)) * ep
+    n_sleep = int(np.count_nonzero(sleep))
+    tst = n_sleep * ep
+    out["tst_min"] = tst
+    out["se_pct"] = 100.0 * tst / out["tib_min"]
+
+    if staged:
+        for key, stage in (("n1", Stage.N1), ("n2", Stage.N2), ("n3", Stage.N3), ("rem", Stage.REM)):
+            minutes = float(np.count_nonzero(codes == stage)) * ep
+            out[f"{key}_min"] = minutes
+            out[f"{key}_pct"] = 100.0 * minutes / tst if n_sleep else _NAN
+
+    if n_sleep == 0:
+        out.update(spt_min=0.0, waso_min=0.0, nwak=0.0)
+        return out  # sol, lps, terminal wake, REM latency stay NaN
+
+    sleep_idx = np.flatnonzero(sleep)
+    first, last = int(sleep_idx[0]), int(sleep_idx[-1])
+    out["sol_min"] = first * ep
+    out["spt_min"] = (last + 1 - first) * ep
+    out["terminal_wake_min"] = (n - 1 - last) * ep
+    in_spt = slice(first, last + 1)
+    out["waso_min"] = float(np.count_nonzero(wake[in_spt])) * ep
+
+    # Latency to persistent sleep: first sleep run of >= lps_run_min minutes.
+    starts, lengths, values = _runs(sleep)
+    need = _min_epochs(lps_run_min, ep)
+    persistent = np.flatnonzero(values & (lengths >= need))
+    out["lps_min"] = float(starts[persistent[0]]) * ep if persistent.size else _NAN
+
+    # Wake bouts inside the sleep period (the SPT starts and ends on sleep, so
+    # every wake run in it is interior and maximal).
+    w_starts, w_lengths, w_values = _runs(wake[in_spt])
+    bout = _min_epochs(min_wake_bout_min, ep) if min_wake_bout_min > 0 else 1
+    out["nwak"] = float(np.count_nonzero(w_values & (w_lengths >= bout)))
+
+    if staged:
+        rem_idx = np.flatnonzero(codes == Stage.REM)
+        out["rem_latency_min"] = float(rem_idx[0] - first) * ep if rem_idx.size else _NAN
+    return out
