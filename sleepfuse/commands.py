@@ -24,6 +24,7 @@ def register(sub) -> None:
     p.add_argument("study", type=_study_dir, metavar="STUDY", help="study folder")
     p.add_argument("--out", type=Path, metavar="FILE", help="CSV file to write (default: standard output)")
     p.set_defaults(func=run_score)
+    register_batch(sub)
 
 
 def run_score(args: argparse.Namespace) -> int:
@@ -45,4 +46,54 @@ def run_score(args: argparse.Namespace) -> int:
     problems = sum(1 for e in result.qc if e.severity != "info")
     if problems:
         print(f"{problems} QC warnings/errors; see 'sleepfuse check {args.study}'", file=sys.stderr)
+    return 0
+
+
+def register_batch(sub) -> None:
+    p = sub.add_parser(
+        "batch",
+        help="write every output table (nights, agreement, epochs_agreement, matrix, codebook, qc, provenance)",
+        description="Score STUDY and write nights, agreement, epochs_agreement, matrix, codebook and qc tables "
+        "and provenance.json into DIR. A bad file never stops the run; it is reported in qc and on the console. "
+        "Exit status is non-zero only when nothing could be processed or the command line is wrong.",
+    )
+    p.add_argument("study", type=_study_dir, metavar="STUDY", help="study folder")
+    p.add_argument("--out", type=Path, required=True, metavar="DIR", help="output folder (created if missing)")
+    p.add_argument("--format", choices=("csv", "parquet"), default="csv", help="table format (default: csv)")
+    p.add_argument("--plots", action="store_true", help="also write Bland–Altman figures (PNG and SVG) into DIR/plots/")
+    p.add_argument("--workers", type=_positive_int, default=1, metavar="N",
+                   help="process participants in N parallel worker processes (default: 1)")
+    p.add_argument("--zscore", action="store_true", help="standardise every matrix feature over participants")
+    p.add_argument("--min-nights", type=_positive_int, default=1, metavar="N",
+                   help="fewest included nights for a source's mean and SD in the matrix (default: 1)")
+    p.set_defaults(func=run_batch_command)
+
+
+def _positive_int(value: str) -> int:
+    try:
+        n = int(value)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{value!r} is not a whole number") from None
+    if n < 1:
+        raise argparse.ArgumentTypeError(f"{value!r} must be 1 or more")
+    return n
+
+
+def run_batch_command(args: argparse.Namespace) -> int:
+    from .batch import BatchOptions, run_batch
+    from .progress import participant_progress
+
+    options = BatchOptions(out=args.out, format=args.format, plots=args.plots, workers=args.workers,
+                           zscore=args.zscore, min_nights=args.min_nights)
+    with participant_progress() as update:
+        result = run_batch(args.study, options, progress=update, argv=sys.argv)
+    qc = result.tables["qc"]
+    for _, e in qc[qc["severity"] != "info"].iterrows():
+        where = " ".join(str(x) for x in (e["participant"], e["night"], e["file"]) if x)
+        print(f"{e['severity'].upper():7s} {where}: {e['message']}", file=sys.stderr)
+    print(f"{result.n_participants} participants, {result.n_scored_nights} included nights; "
+          f"wrote {len(result.written)} files to {args.out}", file=sys.stderr)
+    if result.n_scored_nights == 0:
+        print("sleepfuse: nothing could be processed; see qc in the output folder", file=sys.stderr)
+        return 1
     return 0

@@ -171,7 +171,7 @@ def minute_counts(rng: np.random.Generator, n_min: int, state: np.ndarray) -> np
     up = state == 0
     counts[up] = rng.gamma(1.4, 260.0, up.sum())
     bed = state == 1
-    counts[bed] = rng.gamma(1.2, 90.0, bed.sum()) * (rng.random(bed.sum()) < 0.8)
+    counts[bed] = rng.gamma(1.5, 180.0, bed.sum()) * (rng.random(bed.sum()) < 0.9)
     light = state == 2
     counts[light] = rng.gamma(1.0, 25.0, light.sum()) * (rng.random(light.sum()) < 0.22)
     deep = state == 3
@@ -233,30 +233,34 @@ def diary_rows(truths: list[TrueNight], plan: ParticipantPlan, rng: np.random.Ge
     """The participant's recollection of each night, with the usual reporting bias."""
     rows = []
     for t in truths:
-        def clock(ts: pd.Timestamp, jitter: float = 5.0) -> str:
-            ts = ts + pd.Timedelta(minutes=float(np.round(rng.normal(0, jitter) / 5) * 5))
-            if plan.iso_diary:
-                return ts.tz_localize(None).strftime("%Y-%m-%dT%H:%M")
-            return ts.strftime("%H:%M")
+        def jitter(ts: pd.Timestamp, sd: float = 5.0) -> pd.Timestamp:
+            return ts + pd.Timedelta(minutes=float(np.round(rng.normal(0, sd) / 5) * 5))
+
+        def fmt(ts: pd.Timestamp) -> str:
+            return ts.tz_localize(None).strftime("%Y-%m-%dT%H:%M") if plan.iso_diary else ts.strftime("%H:%M")
 
         sleep = np.flatnonzero(t.stages != W)
         first, last = sleep[0], sleep[-1]
         wake_in = int(((t.stages[first:last + 1]) == W).sum())
         bouts = int(np.count_nonzero(np.diff((t.stages[first:last + 1] == W).astype(int)) == 1))
-        tried = clock(t.tried_to_sleep, 3.0)
-        out = clock(t.out_of_bed, 3.0)
+        # recollected times keep their real order: bed <= tried <= final awakening <= out of bed
+        bed_ts = jitter(t.bedtime)
+        tried_ts = max(jitter(t.tried_to_sleep, 3.0), bed_ts)
+        final_ts = max(jitter(t.final_awakening), tried_ts + pd.Timedelta(minutes=60))
+        out_ts = max(jitter(t.out_of_bed, 3.0), final_ts)
+        tried, out = fmt(tried_ts), fmt(out_ts)
         if t.night in plan.bad_diary_nights:
             out = (t.tried_to_sleep - pd.Timedelta(minutes=30)).strftime("%H:%M")
         rows.append(
             {
                 "participant": plan.participant,
                 "night": t.night.isoformat(),
-                "bedtime": clock(t.bedtime),
+                "bedtime": fmt(bed_ts),
                 "tried_to_sleep": tried,
                 "sol_min": f"{max(0.0, round(t.sol_min * rng.uniform(1.0, 1.8) / 5) * 5):.0f}",
                 "nwak": str(max(0, int(round(bouts * rng.uniform(0.3, 0.8))))),
                 "waso_min": f"{max(0.0, round(wake_in / 2 * rng.uniform(0.6, 1.5) / 5) * 5):.0f}",
-                "final_awakening": clock(t.final_awakening),
+                "final_awakening": fmt(final_ts),
                 "out_of_bed": out,
                 "quality": str(int(np.clip(round(rng.normal(3.4, 0.8)), 1, 5))),
             }

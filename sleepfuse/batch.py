@@ -1,0 +1,282 @@
+"""``sleepfuse batch``: every output table of DESIGN.md, headless, one participant at a time.
+
+Each participant is read and scored by itself (in this process or in a pool
+of worker processes), and only its light results (night rows, rhythm, epoch
+agreement rows, QC entries, input checksums) come back, so memory does not
+grow with the study beyond the tables themselves. Every file is written
+atomically; provenance.json is written last.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import math
+import os
+import platform
+import sys
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable
+
+import numpy as np
+import pandas as pd
+
+from . import RESEARCH_CAUTION, __version__
+from .atomic import atomic_path, write_text
+from .config import StudyConfig, load_config
+from .fusion.epoch_table import epoch_rows, epoch_table
+from .fusion.matrix import codebook, participant_matrix
+from .fusion.pairs import agreement_table, paired_nights
+from .pipeline import ParticipantJob, plan_jobs, process_participant
+from .qc import QCEntry, QCLog
+from .scoring.actigraphy import COLE_KRIPKE_COEFFICIENTS
+from .scoring.nights import night_table, rhythm_table
+from .study import sha256_of
+
+OUTPUT_TABLES = ("nights", "agreement", "epochs_agreement", "matrix", "codebook", "qc")
+FORMATS = ("csv", "parquet")
+
+
+@dataclass
+class ParticipantOutcome:
+    """What a worker sends back for one participant: small tables, never raw epoch arrays."""
+
+    participant: str
+    rows: list[dict]
+    rhythm: dict
+    epoch_rows: list[dict]
+    qc: list[QCEntry]
+    inputs: list[dict] = field(default_factory=list)
+
+
+@dataclass
+class BatchOptions:
+    out: Path
+    format: str = "csv"
+    plots: bool = False
+    workers: int = 1
+    zscore: bool = False
+    min_nights: int = 1
+
+
+@dataclass
+class BatchResult:
+    tables: dict[str, pd.DataFrame]
+    provenance: dict
+    written: list[Path]
+    n_participants: int
+    n_scored_nights: int
+
+
+def run_participant(config: StudyConfig, job: ParticipantJob) -> ParticipantOutcome:
+    """Read, score and compare the instruments of one participant (runs in a worker)."""
+    scored, entries = process_participant(config, job)
+    qc = QCLog(list(entries))
+    try:
+        erows = epoch_rows(config, scored, qc)
+    except Exception as exc:  # epoch agreement is optional; never lose the participant for it
+        qc.error(f"epoch-by-epoch agreement not computed: {type(exc).__name__}: {exc}", participant=job.participant)
+        erows = []
+    inputs = []
+    for source, paths in job.files.items():
+        for p in paths:
+            inputs.append(_input_record(config, p, source))
+    return ParticipantOutcome(job.participant, scored.rows, scored.rhythm, erows, qc.entries, inputs)
+
+
+def _input_record(config: StudyConfig, path: Path, source: str) -> dict:
+    try:
+        stat = path.stat()
+        digest = sha256_of(path)
+    except OSError as exc:
+        return {"file": _rel(config, path), "source": source, "sha256": "", "error": str(exc)}
+    return {
+        "file": _rel(config, path),
+        "source": source,
+        "sha256": digest,
+        "bytes": stat.st_size,
+        "modified": dt.datetime.fromtimestamp(stat.st_mtime, dt.timezone.utc).isoformat(),
+    }
+
+
+def _rel(config: StudyConfig, path: Path) -> str:
+    try:
+        return str(Path(path).relative_to(config.root))
+    except ValueError:
+        return str(path)
+
+
+def _run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
+              progress: Callable[[str, int, int], None] | None) -> list[ParticipantOutcome]:
+    outcomes: list[ParticipantOutcome] = []
+    n = len(jobs)
+    if workers <= 1 or n <= 1:
+        for i, job in enumerate(jobs):
+            if progress:
+                progress(job.participant, i, n)
+            outcomes.append(run_participant(config, job))
+        if progress:
+            progress("", n, n)
+        return outcomes
+    with ProcessPoolExecutor(max_workers=workers) as pool:
+        futures = {pool.submit(run_participant, config, job): job for job in jobs}
+        for i, fut in enumerate(as_completed(futures)):
+            job = futures[fut]
+            try:
+                outcomes.append(fut.result())
+            except Exception as exc:  # a crashed worker loses one participant, not the study
+                entry = QCEntry("", job.participant, "", "error", f"participant not processed: {type(exc).__name__}: {exc}")
+                outcomes.append(ParticipantOutcome(job.participant, [], {}, [], [entry]))
+            if progress:
+                progress(job.participant, i + 1, n)
+    return sorted(outcomes, key=lambda o: o.participant)
+
+
+def build_tables(config: StudyConfig, outcomes: list[ParticipantOutcome], qc: QCLog, options: BatchOptions) -> dict[str, pd.DataFrame]:
+    """All output tables from the participants' outcomes."""
+    from .scoring.nights import ScoredParticipant
+
+    scored = [ScoredParticipant(o.participant, rows=o.rows, rhythm=o.rhythm) for o in outcomes]
+    for o in outcomes:
+        qc.extend(o.qc)
+    nights = night_table(scored)
+    rhythm = rhythm_table(scored)
+    matrix = participant_matrix(nights, rhythm, min_nights=options.min_nights, zscore=options.zscore,
+                                participants=[o.participant for o in outcomes])
+    return {
+        "nights": nights,
+        "agreement": agreement_table(nights),
+        "epochs_agreement": epoch_table([r for o in outcomes for r in o.epoch_rows]),
+        "matrix": matrix,
+        "codebook": codebook(matrix, min_nights=options.min_nights, zscore=options.zscore),
+        "qc": qc.to_frame(),
+    }
+
+
+def algorithm_provenance(config: StudyConfig) -> dict:
+    act = config.actigraphy
+    out = {"actigraphy_algorithm": act.algorithm, "count_scale": act.count_scale, "nonwear": act.nonwear}
+    if act.algorithm == "cole-kripke":
+        p, weights = COLE_KRIPKE_COEFFICIENTS[act.coefficients]
+        out.update(coefficient_set=act.coefficients, P=p, weights_minus4_to_plus2=list(weights),
+                   webster_rescoring=act.webster, reference="Cole, Kripke et al. 1992, Sleep 15:461-469")
+    else:
+        out.update(sadeh_cap=act.sadeh_cap, reference="Sadeh, Sharkey & Carskadon 1994, Sleep 17:201-207")
+    return out
+
+
+def _json_default(value):
+    if isinstance(value, (np.integer,)):
+        return int(value)
+    if isinstance(value, (np.floating,)):
+        return None if math.isnan(value) else float(value)
+    if isinstance(value, Path):
+        return str(value)
+    if isinstance(value, (dt.date, dt.datetime, pd.Timestamp)):
+        return value.isoformat()
+    raise TypeError(f"not JSON serialisable: {type(value).__name__}")
+
+
+def write_table(df: pd.DataFrame, path_base: Path, fmt: str) -> Path:
+    """Write one table atomically as CSV or Parquet."""
+    if fmt == "csv":
+        path = path_base.with_suffix(".csv")
+        write_text(path, df.to_csv(index=False, lineterminator="\n"))
+        return path
+    path = path_base.with_suffix(".parquet")
+    with atomic_path(path) as tmp:
+        df.to_parquet(tmp, index=False, engine="pyarrow")
+    return path
+
+
+def write_plots(tables: dict[str, pd.DataFrame], out: Path) -> list[Path]:
+    """One Bland–Altman figure (PNG + SVG) per parameter and pair into out/plots/."""
+    from .fusion.plots import bland_altman_figure, save_figure
+
+    nights = tables["nights"]
+    written: list[Path] = []
+    for _, stats in tables["agreement"].iterrows():
+        test, reference = stats["pair"].split("-")
+        paired = paired_nights(nights, test, reference) if not nights.empty else pd.DataFrame()
+        param = stats["parameter"]
+        if paired.empty:
+            t = r = ids = np.array([], dtype=float)
+        else:
+            t, r, ids = paired[f"{param}_test"].to_numpy(float), paired[f"{param}_ref"].to_numpy(float), paired["participant"].to_numpy(object)
+        fig = bland_altman_figure(t, r, stats.to_dict(), parameter=param, pair=stats["pair"], unit=stats["unit"], participant=ids)
+        written += save_figure(fig, out / "plots" / f"{stats['pair']}_{param}")
+    return written
+
+
+def run_batch(
+    study: str | Path,
+    options: BatchOptions,
+    *,
+    config: StudyConfig | None = None,
+    progress: Callable[[str, int, int], None] | None = None,
+    argv: list[str] | None = None,
+) -> BatchResult:
+    """Score the study and write every output table into ``options.out``."""
+    if options.format not in FORMATS:
+        raise ValueError(f"format {options.format!r} not in {FORMATS}")
+    started = dt.datetime.now(dt.timezone.utc)
+    config = config if config is not None else load_config(study)
+    qc = QCLog()
+    if config.study.timezone_from_machine:
+        qc.info(f"study.toml gives no [study] timezone; using this machine's zone {config.timezone}", file="study.toml")
+    jobs, files = plan_jobs(config, qc)
+    outcomes = _run_jobs(config, jobs, options.workers, progress)
+    tables = build_tables(config, outcomes, qc, options)
+    out = Path(options.out)
+    out.mkdir(parents=True, exist_ok=True)
+    written = [write_table(tables[name], out / name, options.format) for name in OUTPUT_TABLES]
+    if options.plots:
+        written += write_plots(tables, out)
+    nights = tables["nights"]
+    provenance = {
+        "tool": "sleepfuse",
+        "version": __version__,
+        "caution": RESEARCH_CAUTION,
+        "command": argv if argv is not None else sys.argv,
+        "started": started.isoformat(),
+        "finished": dt.datetime.now(dt.timezone.utc).isoformat(),
+        "python": platform.python_version(),
+        "libraries": _library_versions(),
+        "study": str(Path(study).resolve()),
+        "configuration": config.to_dict(),
+        "algorithm": algorithm_provenance(config),
+        "options": {"format": options.format, "plots": options.plots, "workers": options.workers,
+                    "zscore": options.zscore, "min_nights": options.min_nights},
+        "inputs": sorted((i for o in outcomes for i in o.inputs), key=lambda i: i["file"]),
+        "outputs": [p.name for p in written],
+        "counts": {
+            "participants": len(outcomes),
+            "nights": int(len(nights)),
+            "included_nights": int(nights["included"].sum()) if not nights.empty else 0,
+            "qc_errors": int(sum(1 for e in qc if e.severity == "error")),
+            "qc_warnings": int(sum(1 for e in qc if e.severity == "warning")),
+        },
+    }
+    prov_path = out / "provenance.json"
+    write_text(prov_path, json.dumps(provenance, indent=2, default=_json_default, allow_nan=False) + "\n")
+    written.append(prov_path)
+    scored = int(nights["included"].sum()) if not nights.empty else 0
+    return BatchResult(tables, provenance, written, len(outcomes), scored)
+
+
+def _library_versions() -> dict[str, str]:
+    import importlib.metadata as md
+
+    out = {}
+    for name in ("numpy", "pandas", "scipy", "pyedflib", "matplotlib", "pyarrow"):
+        try:
+            out[name] = md.version(name)
+        except md.PackageNotFoundError:
+            out[name] = "not installed"
+    return out
+
+
+def default_workers() -> int:
+    return max(1, min(4, (os.cpu_count() or 1)))

@@ -1,0 +1,94 @@
+"""The participant × feature matrix and its codebook (matrix.csv, codebook.csv)."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+
+from ..definitions import PARAMETERS, SOURCE_NAMES, WINDOW_NOTE
+from ..scoring.nights import SOURCE_PARAMETERS
+from ..scoring.rhythm import RHYTHM_PARAMETERS
+
+CODEBOOK_COLUMNS = ["name", "source", "parameter", "statistic", "unit", "definition", "n_nonmissing", "skewness"]
+SOURCES = ("psg", "actigraphy", "diary")
+
+
+def feature_columns() -> list[tuple[str, str, str, str]]:
+    """(column, source, parameter, statistic) in the matrix's stable order."""
+    cols = []
+    for source in SOURCES:
+        cols.append((f"{source}_nights", source, "", "nights"))
+        for p in SOURCE_PARAMETERS[source]:
+            cols.append((f"{source}_{p}_mean", source, p, "mean"))
+            cols.append((f"{source}_{p}_sd", source, p, "sd"))
+    for r in RHYTHM_PARAMETERS:
+        cols.append((f"actigraphy_{r}", "actigraphy", r, "value"))
+    return cols
+
+
+def participant_matrix(nights: pd.DataFrame, rhythm: pd.DataFrame, *, min_nights: int = 1,
+                       zscore: bool = False, participants: list[str] | None = None) -> pd.DataFrame:
+    """One row per participant: mean and SD over included nights per source and parameter, night counts, rhythm.
+
+    With fewer than ``min_nights`` included nights a source's means and SDs are
+    missing (its night count stays). ``zscore`` standardises every feature
+    column over participants (the night counts are left as counts).
+    """
+    cols = feature_columns()
+    ids = sorted(set(participants or []) | set(nights["participant"]) | set(rhythm["participant"]))
+    out = pd.DataFrame(index=pd.Index(ids, name="participant"))
+    inc = nights[nights["included"]] if not nights.empty else nights
+    for source in SOURCES:
+        sub = inc[inc["source"] == source] if not inc.empty else inc
+        params = SOURCE_PARAMETERS[source]
+        g = sub.groupby("participant") if not sub.empty else None
+        count = g.size() if g is not None else pd.Series(dtype=float)
+        out[f"{source}_nights"] = count.reindex(ids).fillna(0).astype(int)
+        mean = g[params].mean() if g is not None else pd.DataFrame(columns=params)
+        sd = g[params].std(ddof=1) if g is not None else pd.DataFrame(columns=params)
+        enough = out[f"{source}_nights"] >= max(min_nights, 1)
+        for p in params:
+            out[f"{source}_{p}_mean"] = mean[p].reindex(ids).where(enough) if p in mean else math.nan
+            out[f"{source}_{p}_sd"] = sd[p].reindex(ids).where(enough) if p in sd else math.nan
+    rh = rhythm.set_index("participant") if not rhythm.empty else pd.DataFrame(columns=list(RHYTHM_PARAMETERS))
+    for r in RHYTHM_PARAMETERS:
+        out[f"actigraphy_{r}"] = rh[r].reindex(ids) if r in rh else math.nan
+    out = out[[c[0] for c in cols]]
+    if zscore:
+        for name, _, _, stat in cols:
+            if stat == "nights":
+                continue
+            col = out[name].astype(float)
+            sd = col.std(ddof=1)
+            out[name] = (col - col.mean()) / sd if sd and np.isfinite(sd) and sd > 0 else math.nan
+    return out.reset_index()
+
+
+def codebook(matrix: pd.DataFrame, *, min_nights: int = 1, zscore: bool = False) -> pd.DataFrame:
+    """codebook.csv: every matrix column with source, parameter, statistic, unit, definition, n, skewness."""
+    rows = [{"name": "participant", "source": "", "parameter": "", "statistic": "id", "unit": "",
+             "definition": "Participant ID: the file-name part before the first '_' (or [study] participant_pattern).",
+             "n_nonmissing": int(matrix["participant"].notna().sum()), "skewness": math.nan}]
+    for name, source, param, stat in feature_columns():
+        col = pd.to_numeric(matrix[name], errors="coerce")
+        src = SOURCE_NAMES[source]
+        if stat == "nights":
+            unit, definition = "nights", f"Number of included {src} nights of the participant."
+        else:
+            info = PARAMETERS[param]
+            unit = "z-score" if zscore else info.unit
+            if stat == "value":
+                definition = info.definition
+            else:
+                what = "Mean" if stat == "mean" else "Standard deviation (ddof=1)"
+                definition = (f"{what} over the participant's included {src} nights (at least {min_nights}) of: "
+                              f"{info.definition} {WINDOW_NOTE}")
+            if zscore:
+                definition += f" Standardised over participants (original unit: {info.unit})."
+        n = int(col.notna().sum())
+        skew = float(col.skew()) if n >= 3 else math.nan
+        rows.append({"name": name, "source": source, "parameter": param, "statistic": stat, "unit": unit,
+                     "definition": definition, "n_nonmissing": n, "skewness": skew})
+    return pd.DataFrame(rows, columns=CODEBOOK_COLUMNS)

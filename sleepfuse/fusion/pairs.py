@@ -1,0 +1,44 @@
+"""The agreement table: every parameter × instrument pair, on the nights both instruments have."""
+
+from __future__ import annotations
+
+import pandas as pd
+
+from ..definitions import PAIRS, PARAMETERS, pair_name
+from ..scoring.nights import SOURCE_PARAMETERS
+from .agreement import AGREEMENT_COLUMNS, agreement
+
+AGREEMENT_TABLE_COLUMNS = ["parameter", "pair", "unit", *AGREEMENT_COLUMNS]
+
+
+def shared_parameters(test: str, reference: str) -> list[str]:
+    """Parameters both sources report, in the order of the test source's list."""
+    ref = set(SOURCE_PARAMETERS[reference])
+    return [p for p in SOURCE_PARAMETERS[test] if p in ref]
+
+
+def paired_nights(nights: pd.DataFrame, test: str, reference: str) -> pd.DataFrame:
+    """One row per (participant, night) that both sources have and include, with both values of every shared parameter."""
+    params = shared_parameters(test, reference)
+    inc = nights[nights["included"]]
+    a = inc[inc["source"] == test].set_index(["participant", "night"])[params]
+    b = inc[inc["source"] == reference].set_index(["participant", "night"])[params]
+    joined = a.join(b, how="inner", lsuffix="_test", rsuffix="_ref")
+    return joined.reset_index()
+
+
+def agreement_table(nights: pd.DataFrame, *, confidence: float = 0.95) -> pd.DataFrame:
+    """agreement.csv: Bland–Altman and friends per parameter and pair (differences test − reference)."""
+    rows = []
+    for test, reference in PAIRS:
+        paired = paired_nights(nights, test, reference) if not nights.empty else pd.DataFrame()
+        for param in shared_parameters(test, reference):
+            info = PARAMETERS[param]
+            if paired.empty:
+                t = r = ids = pd.Series(dtype=float)
+            else:
+                t, r, ids = paired[f"{param}_test"], paired[f"{param}_ref"], paired["participant"]
+            stats = agreement(t.to_numpy(float), r.to_numpy(float), ids.to_numpy(object),
+                              log_scale=info.skewed, confidence=confidence)
+            rows.append({"parameter": param, "pair": pair_name(test, reference), "unit": info.unit, **stats})
+    return pd.DataFrame(rows, columns=AGREEMENT_TABLE_COLUMNS)
