@@ -1,0 +1,346 @@
+"""Shared CSV plumbing for the actigraphy and diary readers: text, table, columns, timestamps.
+
+Reads a delimited text file into a table of strings with the 1-based file
+line of every row (header = line 1), so problems can name the line to fix.
+Fast path: pandas' C parser; files with quotes or ragged rows go through the
+standard-library csv module, which keeps exact line numbers. A timestamp
+column becomes UTC instants, vectorised, with DST resolved by file order.
+"""
+
+from __future__ import annotations
+
+import csv
+import datetime as dt
+import io
+import re
+import warnings
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from ..errors import ReadError
+from ..records import Problem
+from ..timeutil import zone
+
+DELIMITERS = (",", ";", "\t")
+MAX_DETAILED = 20  # problems of one kind listed one by one; the rest are summarised
+_US = 1_000_000  # microseconds per second; instants are int64 µs since 1970 (UTC)
+_HOUR_US = 3600 * _US
+_OFFSET_RE = r"\d:\d{2}(?:[.,]\d+)?\s*(?:[Zz]|[+-]\d{2}(?::?\d{2})?)$"
+
+
+@dataclass
+class CsvTable:
+    """A CSV file as strings: header names, one str column per header, file lines."""
+
+    header: list[str]
+    cells: pd.DataFrame  # dtype str, "" for empty; columns numbered 0..n-1
+    lines: np.ndarray  # int64, 1-based file line of each row
+    delimiter: str
+
+
+def read_text(path: Path) -> str:
+    """The file's text: UTF-8, optional byte-order mark; anything else is a ReadError."""
+    try:
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        raise ReadError(path, "file not found") from None
+    except OSError as exc:
+        raise ReadError(path, f"cannot open the file ({exc.strerror or exc})") from None
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise ReadError(
+            path,
+            f"not UTF-8 text (byte 0x{raw[exc.start]:02x} at offset {exc.start}); "
+            "save the file as UTF-8 CSV",
+        ) from None
+    if "\x00" in text:
+        raise ReadError(path, "the file holds NUL bytes; it is not a text CSV file")
+    return text
+
+
+def _sniff_delimiter(header_line: str) -> str:
+    """The delimiter used in the header: the most frequent of , ; and tab (comma on ties)."""
+    counts = [header_line.count(d) for d in DELIMITERS]
+    return DELIMITERS[int(np.argmax(counts))] if max(counts) > 0 else ","
+
+
+def read_table(path: Path) -> CsvTable:
+    """Parse ``path`` into a CsvTable; empty file or missing header is a ReadError."""
+    text = read_text(path)
+    lines = text.split("\n")
+    first = next((i for i, ln in enumerate(lines) if ln.strip()), None)
+    if first is None:
+        raise ReadError(path, "the file is empty")
+    delimiter = _sniff_delimiter(lines[first])
+    body = text if first == 0 else "\n".join(lines[first:])
+    table = None
+    if '"' not in body and "\r" not in body.replace("\r\n", "\n"):
+        table = _read_fast(body, delimiter, first)
+    if table is None:
+        table = _read_exact(path, body, delimiter, first)
+    if not any(h.strip() for h in table.header):
+        raise ReadError(path, f"line {first + 1}: the header row has no column names")
+    return table
+
+
+def _read_fast(body: str, delimiter: str, offset: int) -> CsvTable | None:
+    """pandas C parser; None if the file needs the exact (csv-module) path."""
+    header = body.split("\n", 1)[0].rstrip("\r").split(delimiter)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", pd.errors.ParserWarning)  # pandas drops extra fields with only a warning
+            df = pd.read_csv(
+                io.StringIO(body),
+                sep=delimiter,
+                dtype=str,
+                header=None,
+                names=list(range(len(header))),
+                skiprows=1,
+                keep_default_na=False,
+                na_filter=False,
+                skip_blank_lines=False,
+                engine="c",
+                quoting=csv.QUOTE_NONE,
+                index_col=False,
+            )
+    except pd.errors.EmptyDataError:
+        df = pd.DataFrame()
+    except (pd.errors.ParserError, pd.errors.ParserWarning, ValueError, OverflowError):
+        return None
+    if df.shape[1] != len(header):
+        return None  # ragged rows: let the exact path report them by line
+    df.columns = range(df.shape[1])
+    lines = np.arange(len(df), dtype=np.int64) + 2 + offset
+    return CsvTable([h.strip() for h in header], df.astype(str), lines, delimiter)
+
+
+def _read_exact(path: Path, body: str, delimiter: str, offset: int) -> CsvTable:
+    """csv-module path: exact line numbers for quoted or ragged files (few in practice)."""
+    reader = csv.reader(io.StringIO(body, newline=""), delimiter=delimiter)
+    try:
+        header = next(reader)
+        rows: list[list[str]] = []
+        starts: list[int] = []
+        prev_end = reader.line_num
+        width = len(header)
+        ragged: list[int] = []
+        for row in reader:
+            start = prev_end + 1
+            prev_end = reader.line_num
+            if len(row) > width and any(c.strip() for c in row[width:]):
+                ragged.append(start + offset)
+            row = (row + [""] * width)[:width]
+            rows.append(row)
+            starts.append(start + offset)
+    except csv.Error as exc:
+        raise ReadError(path, f"line {reader.line_num + offset}: not valid CSV ({exc})") from None
+    df = pd.DataFrame(rows, columns=range(width), dtype=str) if rows else pd.DataFrame(columns=range(width), dtype=str)
+    table = CsvTable([h.strip() for h in header], df, np.asarray(starts, dtype=np.int64), delimiter)
+    table.ragged_lines = ragged  # type: ignore[attr-defined]
+    return table
+
+
+def ragged_problems(table: CsvTable) -> list[Problem]:
+    """Rows with more fields than the header (extra fields ignored), summarised."""
+    lines = getattr(table, "ragged_lines", [])
+    if not lines:
+        return []
+    return [Problem("warning", f"{line_phrase(lines)}: more fields than the header has; extra fields ignored")]
+
+
+def _norm(name: str) -> str:
+    return re.sub(r"\s+", " ", name.strip().strip('"').strip()).casefold()
+
+
+def find_column(header: list[str], name: str) -> int | None:
+    """Index of column ``name``: exact match first, then case-insensitive and stripped."""
+    if name in header:
+        return header.index(name)
+    wanted = _norm(name)
+    for i, h in enumerate(header):
+        if _norm(h) == wanted:
+            return i
+    return None
+
+
+def missing_column_message(key: str, name: str, header: list[str], section: str) -> str:
+    """What to fix when a required column is not in the file."""
+    found = ", ".join(repr(h) for h in header if h) or "(none)"
+    return (
+        f"no column {name!r} (for {key}); columns found: {found}. "
+        f"If the file names it differently, map it in study.toml: "
+        f'[{section}] columns = {{{key} = "<column name in the file>"}}'
+    )
+
+
+def is_blank_row(cells: pd.DataFrame) -> np.ndarray:
+    """True for rows whose every cell is empty or whitespace (blank lines)."""
+    if cells.shape[1] == 0:
+        return np.ones(len(cells), dtype=bool)
+    blank = np.ones(len(cells), dtype=bool)
+    for j in cells.columns:
+        blank &= (cells[j].str.strip() == "").to_numpy()
+    return blank
+
+
+def line_list(lines, limit: int = MAX_DETAILED) -> str:
+    """'12, 14, 20 and 3 more': a short list of file lines for a message."""
+    lines = [int(n) for n in lines]
+    shown = ", ".join(str(n) for n in lines[:limit])
+    if len(lines) > limit:
+        shown += f" and {len(lines) - limit} more"
+    return shown
+
+
+def line_phrase(lines, limit: int = MAX_DETAILED) -> str:
+    """'line 12' or 'lines 12, 14 and 3 more' for a message."""
+    lines = list(lines)
+    return ("line " if len(lines) == 1 else "lines ") + line_list(lines, limit)
+
+
+# --- ISO 8601 timestamps in a column, vectorised, DST resolved by file order
+
+
+def parse_instants(stamps: pd.Series, lines: np.ndarray, tz: str) -> tuple[np.ndarray, np.ndarray, list[Problem]]:
+    """UTC instants (int64 µs) of ISO 8601 strings; naive ones are wall clock in ``tz``.
+
+    Returns instants, a mask of readable rows and the problems found.
+    """
+    n = len(stamps)
+    out = np.zeros(n, dtype=np.int64)
+    ok = np.zeros(n, dtype=bool)
+    problems: list[Problem] = []
+    has_offset = _has_offset(stamps)
+
+    aware_idx = np.flatnonzero(has_offset)
+    if aware_idx.size:
+        parsed = _to_datetime(stamps.iloc[aware_idx], utc=True)
+        good = ~np.isnat(parsed)
+        out[aware_idx[good]] = parsed[good].astype("datetime64[us]").astype(np.int64)
+        ok[aware_idx[good]] = True
+
+    naive_idx = np.flatnonzero(~has_offset)
+    if naive_idx.size:
+        wall = _to_datetime(stamps.iloc[naive_idx], utc=False)
+        good = ~np.isnat(wall)
+        idx = naive_idx[good]
+        utc, local_ok, wall_problems = _localize_wall(wall[good].astype("datetime64[us]"), lines[idx], tz)
+        out[idx[local_ok]] = utc[local_ok]
+        ok[idx[local_ok]] = True
+        problems += wall_problems
+
+    bad = np.flatnonzero(~ok)
+    if bad.size:
+        near = np.flatnonzero(ok)
+        near_time = None
+        if near.size:  # place the problem at the last readable time before it (or the first after)
+            j = near[near < bad[0]][-1] if (near < bad[0]).any() else near[0]
+            near_time = pd.Timestamp(int(out[j]), unit="us", tz="UTC").tz_convert(tz)
+        examples = "; ".join(f"line {lines[i]}: {stamps.iloc[i][:30]!r}" for i in bad[:5])
+        problems.append(
+            Problem(
+                "warning",
+                f"{bad.size} row(s) with an unreadable timestamp skipped ({line_phrase(lines[bad])}); e.g. {examples}",
+                time=near_time,
+            )
+        )
+    return out, ok, problems
+
+
+def _has_offset(stamps: pd.Series) -> np.ndarray:
+    """True where an ISO 8601 string ends in a UTC offset or Z (vectorised, RE2 via pyarrow when possible)."""
+    try:
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        return np.asarray(pc.match_substring_regex(pa.array(stamps, type=pa.string()), _OFFSET_RE), dtype=bool)
+    except Exception:  # pyarrow missing or the values not plain strings: the slower pandas path
+        return stamps.str.contains(_OFFSET_RE, regex=True).to_numpy(dtype=bool)
+
+
+def _to_datetime(values: pd.Series, *, utc: bool) -> np.ndarray:
+    """ISO 8601 strings to datetime64[us] (UTC if ``utc``); NaT where unreadable."""
+    try:
+        res = pd.to_datetime(values, format="ISO8601", errors="coerce", utc=utc)
+    except (ValueError, TypeError, OverflowError):
+        # Mixed or odd values: element by element, only for files that need it.
+        res = pd.Series([_one_datetime(v, utc) for v in values], dtype="datetime64[us, UTC]" if utc else "datetime64[us]")
+    if utc:
+        res = res.dt.tz_convert("UTC").dt.tz_localize(None)
+    if getattr(res.dt, "tz", None) is not None:
+        return np.full(len(values), np.datetime64("NaT"), dtype="datetime64[us]")
+    return res.to_numpy(dtype="datetime64[us]")
+
+
+def _one_datetime(value: str, utc: bool):
+    try:
+        ts = pd.Timestamp(value)
+    except (ValueError, TypeError, OverflowError):
+        return pd.NaT
+    if (ts.tzinfo is not None) != utc:
+        return pd.NaT
+    return ts
+
+
+def _localize_wall(wall: np.ndarray, lines: np.ndarray, tz: str) -> tuple[np.ndarray, np.ndarray, list[Problem]]:
+    """Wall-clock datetime64[us] in ``tz`` to UTC µs, resolving DST by file order.
+
+    A repeated (autumn) wall time is read on its first pass as the earlier
+    instant (fold=0) and, once the wall clock has stepped back by 30–60 min,
+    as the later one (fold=1). A wall time inside the spring-forward gap is
+    read with the offset in force before the gap (a clock that was not changed).
+    """
+    problems: list[Problem] = []
+    idx = pd.DatetimeIndex(wall)
+    n = len(idx)
+    a = idx.tz_localize(tz, ambiguous=np.ones(n, dtype=bool), nonexistent="NaT").as_unit("us")
+    b = idx.tz_localize(tz, ambiguous=np.zeros(n, dtype=bool), nonexistent="NaT").as_unit("us")
+    ai = a.asi8.copy()
+    bi = b.asi8.copy()
+    nat = np.iinfo(np.int64).min
+    missing = ai == nat
+    early = np.minimum(ai, bi)
+    late = np.maximum(ai, bi)
+    ambiguous = ~missing & (early != late)
+    utc = early.copy()
+    ok = ~missing
+
+    if ambiguous.any():
+        wall_us = wall.astype(np.int64)
+        utc[ambiguous] = early[ambiguous]
+        run_starts = np.flatnonzero(ambiguous & ~np.r_[False, ambiguous[:-1]])
+        run_ends = np.flatnonzero(ambiguous & ~np.r_[ambiguous[1:], False]) + 1
+        for s, e in zip(run_starts, run_ends):  # one run per autumn change in the file
+            step_back = wall_us[s:e - 1] - wall_us[s + 1:e]
+            jumps = np.flatnonzero((step_back >= _HOUR_US // 2) & (step_back <= _HOUR_US))
+            if jumps.size:
+                utc[s + jumps[0] + 1:e] = late[s + jumps[0] + 1:e]
+            elif e < n and ok[e]:
+                # No step back seen: the run is the second pass if that makes it contiguous with what follows.
+                gap_early = utc[e] - early[e - 1]
+                gap_late = utc[e] - late[e - 1]
+                if 0 < gap_late < gap_early:
+                    utc[s:e] = late[s:e]
+
+    if missing.any():
+        z = zone(tz)
+        fixed = []
+        for i in np.flatnonzero(missing):  # wall times inside the spring-forward gap: few rows at most
+            naive = pd.Timestamp(wall[i]).to_pydatetime()
+            before = (naive - dt.timedelta(hours=6)).replace(tzinfo=z).utcoffset()
+            utc[i] = int((pd.Timestamp(naive) - pd.Timedelta(before)).value // 1000)
+            ok[i] = True
+            fixed.append(lines[i])
+        problems.append(
+            Problem(
+                "warning",
+                f"{len(fixed)} wall-clock time(s) inside the spring-forward gap in {tz} ({line_phrase(fixed)}); "
+                "read as the time before the change (a device clock that was not changed)",
+                time=pd.Timestamp(int(utc[np.flatnonzero(missing)[0]]), unit="us", tz="UTC").tz_convert(tz),
+            )
+        )
+    return utc, ok, problems

@@ -1,0 +1,295 @@
+"""Byte-level EDF / EDF+ parser: header, "EDF Annotations" TALs and digital samples.
+
+Follows the EDF specification (Kemp et al. 1992, Electroenceph Clin
+Neurophysiol 82:391-393) and EDF+ (Kemp & Olivan 2003, Clin Neurophysiol
+114:1755-1761): a 256-byte header, ns × 256 bytes of signal headers, then
+n_records data records of 2-byte little-endian samples. Annotation signals
+hold Time-stamped Annotation Lists ``+onset[\\x15duration]\\x14text\\x14…\\x00``;
+the first TAL of each data record is the time-keeping TAL (empty text).
+
+Files are opened read-only (never repaired or rewritten). The patient
+field (bytes 8-88) is never decoded into a stored value; only
+``patient_tokens`` reads it, so that messages can be scrubbed of it.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import ReadError
+
+ANNOTATION_LABEL = "EDF Annotations"
+_INT = re.compile(r"^[+-]?\d+$")
+_FLOAT = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
+_TAL_NUMBER = re.compile(rb"^[+-]?(\d+(\.\d*)?|\.\d+)$")
+_DATE = re.compile(r"^(\d\d)\D(\d\d)\D(\d\d)$")
+_MONTHS = ("JAN", "FEB", "MAR", "APR", "MAY", "JUN", "JUL", "AUG", "SEP", "OCT", "NOV", "DEC")
+_RECORDING_START = re.compile(r"^Startdate\s+(\d\d)-([A-Za-z]{3})-(\d{4})(\s|$)")
+
+
+@dataclass(frozen=True)
+class SignalHeader:
+    """One signal's header: label, calibration and samples per data record."""
+
+    label: str
+    physical_min: float | None
+    physical_max: float | None
+    digital_min: int | None
+    digital_max: int | None
+    n_samples: int  # per data record
+    offset: int  # byte offset inside a data record
+
+    @property
+    def is_annotation(self) -> bool:
+        return self.label.strip().lower() == ANNOTATION_LABEL.lower()
+
+
+@dataclass(frozen=True)
+class EdfHeader:
+    """The parts of an EDF(+) header sleepfuse uses; no personal fields."""
+
+    start: dt.datetime  # naive wall-clock start from the header (whole seconds)
+    variant: str  # "EDF", "EDF+C" or "EDF+D"
+    header_bytes: int
+    n_records: int
+    record_duration_s: float
+    record_bytes: int
+    signals: tuple[SignalHeader, ...]
+    notes: tuple[str, ...] = ()  # non-fatal header problems
+
+    @property
+    def annotation_indices(self) -> list[int]:
+        return [i for i, s in enumerate(self.signals) if s.is_annotation]
+
+
+@dataclass
+class Annotation:
+    """One annotation: onset and duration in seconds from the header start time."""
+
+    onset_s: float
+    duration_s: float | None
+    text: str
+
+
+@dataclass
+class AnnotationSet:
+    annotations: list[Annotation]
+    record_onsets_s: np.ndarray  # per data record, NaN where no time-keeping TAL
+    notes: list[str] = field(default_factory=list)
+
+
+def patient_tokens(raw_header: bytes) -> list[str]:
+    """Words of the patient field (for scrubbing messages only; never stored or shown)."""
+    text = raw_header[8:88].decode("latin-1")
+    words = set()
+    for token in text.split():
+        for part in [token, *token.replace("_", " ").replace(",", " ").split()]:
+            if len(part) >= 3 and part.upper() not in {"X", "XX", "XXX"}:
+                words.add(part)
+    return sorted(words, key=len, reverse=True)
+
+
+def _ascii(raw: bytes) -> str:
+    return raw.decode("ascii", errors="replace").strip()
+
+
+def _field_int(path: Path, raw: bytes, name: str) -> int:
+    text = _ascii(raw)
+    if not _INT.match(text):
+        raise ReadError(path, f"header field '{name}' is not a whole number: {text[:20]!r}")
+    return int(text)
+
+
+def _field_float(path: Path, raw: bytes, name: str) -> float:
+    text = _ascii(raw)
+    if not _FLOAT.match(text):
+        raise ReadError(path, f"header field '{name}' is not a number: {text[:20]!r}")
+    return float(text)
+
+
+def _start_datetime(path: Path, raw: bytes, notes: list[str]) -> dt.datetime:
+    """Header start date/time; years 85-99 → 19yy, 00-84 → 20yy, unless the EDF+
+    recording field's "Startdate dd-MMM-yyyy" gives the 4-digit year (Kemp & Olivan 2003)."""
+    date_txt, time_txt = _ascii(raw[168:176]), _ascii(raw[176:184])
+    dm, tm = _DATE.match(date_txt), _DATE.match(time_txt)
+    if not dm:
+        raise ReadError(path, f"header start date is not dd.mm.yy: {date_txt!r}")
+    if not tm:
+        raise ReadError(path, f"header start time is not hh.mm.ss: {time_txt!r}")
+    day, month, yy = (int(g) for g in dm.groups())
+    year = 1900 + yy if yy >= 85 else 2000 + yy
+    rec = _RECORDING_START.match(raw[88:168].decode("ascii", errors="replace"))
+    if rec and rec.group(2).upper() in _MONTHS:
+        r_day, r_month, r_year = int(rec.group(1)), _MONTHS.index(rec.group(2).upper()) + 1, int(rec.group(3))
+        if (r_day, r_month, r_year % 100) == (day, month, yy):
+            year = r_year
+        else:
+            notes.append(
+                f"recording field Startdate {r_day:02d}-{_MONTHS[r_month - 1]}-{r_year} disagrees with "
+                f"the header start date {date_txt}; the header date is used"
+            )
+    try:
+        return dt.datetime(year, month, day, *(int(g) for g in tm.groups()))
+    except ValueError:
+        raise ReadError(path, f"header start {date_txt} {time_txt} is not a valid date and time") from None
+
+
+def read_header(path: Path, raw: bytes, file_bytes: int) -> EdfHeader:
+    """Parse and validate the header bytes ``raw`` (at least the first 256 bytes of the file)."""
+    if file_bytes < 256 or len(raw) < 256:
+        raise ReadError(path, f"not an EDF file: {file_bytes} bytes, shorter than the 256-byte EDF header")
+    if raw[:1] == b"\xff":
+        raise ReadError(path, "BDF (24-bit) files are not supported; only EDF and EDF+ (16-bit) are read")
+    if raw[:8] != b"0       ":
+        raise ReadError(path, "not an EDF file: the header does not start with version '0'")
+    notes: list[str] = []
+    start = _start_datetime(path, raw, notes)
+    ns = _field_int(path, raw[252:256], "number of signals")
+    if ns < 1:
+        raise ReadError(path, f"header says the file holds {ns} signals")
+    header_bytes = 256 * (ns + 1)
+    if file_bytes < header_bytes or len(raw) < header_bytes:
+        raise ReadError(path, f"truncated: expected {header_bytes} header bytes for {ns} signals, found {file_bytes}")
+    stated = _field_int(path, raw[184:192], "number of bytes in header")
+    if stated != header_bytes:
+        notes.append(f"header states {stated} header bytes; {header_bytes} (256 × (1 + {ns} signals)) are used")
+    reserved = _ascii(raw[192:236])
+    variant = "EDF+D" if reserved.startswith("EDF+D") else "EDF+C" if reserved.startswith("EDF+C") else "EDF"
+    n_records = _field_int(path, raw[236:244], "number of data records")
+    duration = _field_float(path, raw[244:252], "duration of a data record")
+    if not np.isfinite(duration) or duration < 0:
+        raise ReadError(path, f"header record duration {duration} s is not a non-negative number")
+
+    sig = raw[256:header_bytes]
+
+    def column(offset: int, width: int, i: int) -> bytes:
+        base = offset * ns + i * width
+        return sig[base : base + width]
+
+    signals: list[SignalHeader] = []
+    byte_offset = 0
+    for i in range(ns):
+        label = _ascii(column(0, 16, i))
+        n_samples = _field_int(path, column(216, 8, i), f"samples per record of signal {i + 1}")
+        if n_samples < 0:
+            raise ReadError(path, f"signal {i + 1} ({label!r}) has {n_samples} samples per record")
+        values = []
+        for off, name, conv in (
+            (104, "physical minimum", float),
+            (112, "physical maximum", float),
+            (120, "digital minimum", int),
+            (128, "digital maximum", int),
+        ):
+            text = _ascii(column(off, 8, i))
+            ok = _INT.match(text) if conv is int else _FLOAT.match(text)
+            values.append(conv(text) if ok else None)
+        signals.append(SignalHeader(label, *values, n_samples=n_samples, offset=byte_offset))
+        byte_offset += 2 * n_samples
+    record_bytes = byte_offset
+    if record_bytes <= 0:
+        raise ReadError(path, "header says every data record is 0 bytes long")
+
+    available = file_bytes - header_bytes
+    if n_records == -1:
+        n_records = available // record_bytes
+        notes.append(f"header gives the number of data records as -1 (unknown); {n_records} found from the file size")
+    elif n_records < 0:
+        raise ReadError(path, f"header says the file holds {n_records} data records")
+    expected = header_bytes + n_records * record_bytes
+    if file_bytes < expected:
+        raise ReadError(
+            path,
+            f"truncated: expected {expected} bytes ({n_records} data records of {record_bytes} bytes), found {file_bytes}",
+        )
+    if file_bytes > expected:
+        notes.append(f"{file_bytes - expected} bytes after the last data record are ignored")
+    if n_records == 0:
+        raise ReadError(path, "the file holds no data records")
+    return EdfHeader(start, variant, header_bytes, n_records, duration, record_bytes, tuple(signals), tuple(notes))
+
+
+def data_records(path: Path, header: EdfHeader) -> np.ndarray:
+    """Read-only memory map of the data records, shape (n_records, record_bytes)."""
+    return np.memmap(
+        path, dtype=np.uint8, mode="r", offset=header.header_bytes, shape=(header.n_records, header.record_bytes)
+    )
+
+
+def _tal_number(raw: bytes) -> float | None:
+    return float(raw) if _TAL_NUMBER.match(raw) else None
+
+
+def parse_tals(block: bytes) -> tuple[list[tuple[float, float | None, list[str]]], int]:
+    """TALs in one annotation-signal block: [(onset_s, duration_s, texts)] and the count of malformed TALs."""
+    tals: list[tuple[float, float | None, list[str]]] = []
+    bad = 0
+    for chunk in block.split(b"\x00"):
+        if not chunk:
+            continue
+        parts = chunk.split(b"\x14")
+        if len(parts) < 2 or parts[-1] != b"":
+            bad += 1
+            continue
+        onset_raw, sep, duration_raw = parts[0].partition(b"\x15")
+        onset = _tal_number(onset_raw)
+        duration = _tal_number(duration_raw) if sep and duration_raw else None
+        if onset is None or (sep and duration_raw and duration is None):
+            bad += 1
+            continue
+        texts = [p.decode("utf-8", errors="replace") for p in parts[1:-1]]
+        tals.append((onset, duration, texts))
+    return tals, bad
+
+
+def read_annotations(path: Path, header: EdfHeader, records: np.ndarray) -> AnnotationSet:
+    """All annotations of every annotation signal plus each record's time-keeping onset."""
+    indices = header.annotation_indices
+    n = header.n_records
+    onsets = np.full(n, np.nan)
+    if not indices:
+        onsets = np.arange(n) * header.record_duration_s
+        return AnnotationSet([], onsets)
+    blocks = []
+    for k in indices:
+        s = header.signals[k]
+        blocks.append(np.ascontiguousarray(records[:, s.offset : s.offset + 2 * s.n_samples]))
+    annotations: list[Annotation] = []
+    bad = missing_keeper = 0
+    for r in range(n):
+        for j, block in enumerate(blocks):
+            tals, n_bad = parse_tals(block[r].tobytes())
+            bad += n_bad
+            for t, (onset, duration, texts) in enumerate(tals):
+                if j == 0 and t == 0:
+                    if texts and texts[0] == "":
+                        onsets[r] = onset
+                        texts = texts[1:]
+                    else:
+                        missing_keeper += 1
+                annotations.extend(Annotation(onset, duration, text) for text in texts if text != "")
+    notes = []
+    if bad:
+        notes.append(f"malformed annotation lists (TALs) skipped: {bad}")
+    if missing_keeper:
+        notes.append(f"data records without the EDF+ time-keeping annotation: {missing_keeper}")
+    return AnnotationSet(annotations, onsets, notes)
+
+
+def physical_samples(path: Path, header: EdfHeader, records: np.ndarray, index: int) -> np.ndarray:
+    """Physical values of signal ``index``, shape (n_records, n_samples): gain and offset from
+    the header's physical and digital extremes (EDF spec, Kemp et al. 1992)."""
+    s = header.signals[index]
+    cal = (s.physical_min, s.physical_max, s.digital_min, s.digital_max)
+    if any(v is None for v in cal):
+        raise ReadError(path, f"signal {s.label!r} has a non-numeric physical or digital minimum/maximum")
+    pmin, pmax, dmin, dmax = cal
+    if dmax == dmin or pmax == pmin:
+        raise ReadError(path, f"signal {s.label!r} has equal minimum and maximum; its values cannot be calibrated")
+    raw = np.ascontiguousarray(records[:, s.offset : s.offset + 2 * s.n_samples])
+    digital = raw.view("<i2").astype(np.float64)
+    return pmin + (digital - dmin) * ((pmax - pmin) / (dmax - dmin))

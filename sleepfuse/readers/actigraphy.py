@@ -1,0 +1,301 @@
+"""Activity-count CSV reader: counts on a regular epoch grid in local time.
+
+Timestamps are ISO 8601; without an offset they are wall-clock times in the
+study zone, so the spring-forward hour is no gap and the repeated autumn hour
+is no duplicate (its first pass is read as summer time, the pass after the
+wall clock steps back as standard time; PEP 495 fold). Parsing is vectorised;
+per-row work happens only for the few rows with problems.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from ..errors import ReadError
+from ..records import ActigraphyRecord, Problem
+from ..timeutil import zone
+from ._csvtext import (
+    MAX_DETAILED,
+    find_column,
+    parse_instants,
+    is_blank_row,
+    line_phrase,
+    missing_column_message,
+    ragged_problems,
+    read_table,
+)
+
+ACTIGRAPHY_DEFAULT_COLUMNS = {"timestamp": "timestamp", "counts": "counts", "off_wrist": "off_wrist", "marker": "marker"}
+ALLOWED_EPOCHS_S = (15, 30, 60)
+MAX_SPAN_DAYS = 400  # longer than any wrist recording: a clock error, not data
+_US = 1_000_000  # microseconds per second; instants are int64 µs since the epoch (UTC)
+
+
+def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> ActigraphyRecord:
+    """Read an activity-count CSV into an ActigraphyRecord on a regular epoch grid.
+
+    ``tz`` is the study's IANA zone; ``columns`` maps timestamp/counts/off_wrist/
+    marker to the file's column names (study.toml ``[actigraphy] columns``).
+    """
+    path = Path(path)
+    try:
+        zone(tz)
+    except ValueError as exc:
+        raise ReadError(path, str(exc)) from None
+    names = dict(ACTIGRAPHY_DEFAULT_COLUMNS)
+    names.update(columns or {})
+    table = read_table(path)
+    problems: list[Problem] = ragged_problems(table)
+
+    col: dict[str, int | None] = {}
+    for key in ("timestamp", "counts"):
+        col[key] = find_column(table.header, names[key])
+        if col[key] is None:
+            raise ReadError(path, missing_column_message(key, names[key], table.header, "actigraphy"))
+    for key in ("off_wrist", "marker"):
+        col[key] = find_column(table.header, names[key])
+        if col[key] is None and columns and key in columns:
+            problems.append(
+                Problem("warning", f"column {names[key]!r} (for {key}, set in study.toml) is not in the file; {key} ignored")
+            )
+
+    filled = ~is_blank_row(table.cells)
+    cells = table.cells[filled]
+    lines = table.lines[filled]
+    if len(cells) == 0:
+        raise ReadError(path, "the file has a header but no data rows")
+
+    stamps = cells[col["timestamp"]].str.strip()
+    instants, ok, local_problems = parse_instants(stamps, lines, tz)
+    problems += local_problems
+    if not ok.any():
+        example = stamps.iloc[0]
+        raise ReadError(
+            path,
+            f"no readable timestamps in column {table.header[col['timestamp']]!r} "
+            f"(line {lines[0]}: {example[:40]!r}); use ISO 8601 such as 2026-03-08T23:15:00",
+        )
+    keep = np.flatnonzero(ok)
+    instants = instants[keep]
+    lines_ok = lines[keep]
+    rows = cells.iloc[keep]
+
+    instants, lines_ok, rows, outliers = _drop_isolated_outliers(instants, lines_ok, rows)
+    problems += outliers
+    epoch_s = _infer_epoch(path, instants)
+    span_days = (instants.max() - instants[0]) / (86400 * _US)
+    if span_days > MAX_SPAN_DAYS:
+        raise ReadError(
+            path,
+            f"timestamps span {span_days:.0f} days (line {lines_ok[0]} to line {lines_ok[int(np.argmax(instants))]}); "
+            f"more than {MAX_SPAN_DAYS} days means a wrong device clock; fix the timestamps",
+        )
+
+    slots, first_of_slot, grid_problems = _place_on_grid(instants, lines_ok, epoch_s, tz)
+    problems += grid_problems
+    n = int(slots.max()) + 1
+    start = _local(instants[0], tz)
+
+    counts_row, count_problems = _parse_counts(rows[col["counts"]], lines_ok, instants, tz)
+    problems += count_problems
+    counts = np.full(n, np.nan)
+    counts[slots[first_of_slot]] = counts_row[first_of_slot]
+
+    off_wrist = marker = None
+    if col["off_wrist"] is not None:
+        flags, flag_problems = _parse_flags(rows[col["off_wrist"]], lines_ok, instants, tz, "off_wrist", blank_ok=False)
+        problems += flag_problems
+        off_wrist = np.zeros(n, dtype=bool)
+        off_wrist[slots[first_of_slot]] = flags[first_of_slot]
+    if col["marker"] is not None:
+        flags, flag_problems = _parse_flags(rows[col["marker"]], lines_ok, instants, tz, "marker", blank_ok=True)
+        problems += flag_problems
+        marker = np.zeros(n, dtype=bool)
+        marker[slots[first_of_slot]] = flags[first_of_slot]
+
+    return ActigraphyRecord(
+        path=path, start=start, epoch_s=epoch_s, counts=counts, off_wrist=off_wrist, marker=marker, problems=problems
+    )
+
+
+def _local(instant_us: int, tz: str) -> pd.Timestamp:
+    return pd.Timestamp(int(instant_us), unit="us", tz="UTC").tz_convert(tz)
+
+
+def _report(messages: list[str], times: list[pd.Timestamp], summary: str) -> list[Problem]:
+    """One Problem each for the first few, then one summary line (keeps the QC log readable).
+
+    ``messages`` / ``times`` hold at most MAX_DETAILED + 1 items; ``summary``
+    describes all of them and is used when there are more than MAX_DETAILED.
+    """
+    if len(messages) <= MAX_DETAILED:
+        return [Problem("warning", m, time=t) for m, t in zip(messages, times)]
+    return [Problem("warning", m, time=t) for m, t in zip(messages[:MAX_DETAILED], times)] + [
+        Problem("warning", summary, time=times[MAX_DETAILED])
+    ]
+
+
+def _drop_isolated_outliers(instants, lines, rows):
+    """Drop single rows more than a day away from both neighbours that agree with each other."""
+    if instants.size < 3:
+        return instants, lines, rows, []
+    day = 86400 * _US
+    prev_gap = np.abs(instants[1:-1] - instants[:-2])
+    next_gap = np.abs(instants[2:] - instants[1:-1])
+    bridge = np.abs(instants[2:] - instants[:-2])
+    odd = np.r_[False, (prev_gap > day) & (next_gap > day) & (bridge <= day), False]
+    if not odd.any():
+        return instants, lines, rows, []
+    msg = f"{int(odd.sum())} timestamp(s) more than a day out of sequence with their neighbours ignored ({line_phrase(lines[odd])})"
+    keep = ~odd
+    return instants[keep], lines[keep], rows.iloc[np.flatnonzero(keep)], [Problem("warning", msg)]
+
+
+def _infer_epoch(path: Path, instants: np.ndarray) -> int:
+    """Epoch length (s): the most common positive step between timestamps; must be 15, 30 or 60."""
+    steps = np.diff(instants)
+    steps = steps[steps > 0]
+    if steps.size == 0:
+        raise ReadError(path, "fewer than two distinct timestamps; cannot infer the epoch length")
+    seconds = np.round(steps / _US).astype(np.int64)
+    values, freq = np.unique(seconds, return_counts=True)
+    epoch = int(values[np.argmax(freq)])
+    if epoch not in ALLOWED_EPOCHS_S:
+        raise ReadError(
+            path,
+            f"epoch length {epoch} s found (the most common step between timestamps); "
+            f"allowed: {', '.join(map(str, ALLOWED_EPOCHS_S))} s",
+        )
+    return epoch
+
+
+def _place_on_grid(instants: np.ndarray, lines: np.ndarray, epoch_s: int, tz: str):
+    """Epoch slot of every row on the grid from the first timestamp, and the problems found.
+
+    Returns slots (-1 = dropped: before the first timestamp), the indices of the
+    rows kept (first row per slot, file order) and the problems.
+    """
+    problems: list[Problem] = []
+    step = epoch_s * _US
+    rel = instants - instants[0]
+    slots = (rel + step // 2) // step
+    off = rel - slots * step
+
+    def when(i):
+        return _local(instants[i], tz)
+
+    def clock(i):
+        return when(i).strftime("%Y-%m-%d %H:%M:%S%z")
+
+    backwards = np.flatnonzero(np.diff(instants) < 0) + 1
+    if backwards.size:
+        sel = backwards[: MAX_DETAILED + 1]
+        problems += _report(
+            [f"line {lines[i]}: time goes backwards ({clock(i)} after {clock(i - 1)} on line {lines[i - 1]})" for i in sel],
+            [when(i) for i in sel],
+            f"time goes backwards at {backwards.size} rows ({line_phrase(lines[backwards])})",
+        )
+    before = np.flatnonzero(slots < 0)
+    if before.size:
+        problems.append(
+            Problem(
+                "warning",
+                f"{before.size} row(s) earlier than the first timestamp dropped ({line_phrase(lines[before])})",
+                time=when(before[0]),
+            )
+        )
+        slots[before] = -1
+
+    snapped = np.flatnonzero((off != 0) & (slots >= 0))
+    if snapped.size:
+        sel = snapped[: MAX_DETAILED + 1]
+        problems += _report(
+            [f"line {lines[i]}: {clock(i)} is not on the {epoch_s}-s epoch grid; moved to the nearest epoch" for i in sel],
+            [when(i) for i in sel],
+            f"{snapped.size} timestamps not on the {epoch_s}-s epoch grid from {clock(0)} moved to the nearest "
+            f"epoch ({line_phrase(lines[snapped])})",
+        )
+
+    valid = np.flatnonzero(slots >= 0)
+    uniq, first_pos = np.unique(slots[valid], return_index=True)
+    first = valid[first_pos]
+    if first.size < valid.size:
+        owner = np.full(int(uniq[-1]) + 1, -1, dtype=np.int64)
+        owner[uniq] = first
+        dup = np.setdiff1d(valid, first, assume_unique=True)
+        sel = dup[: MAX_DETAILED + 1]
+        problems += _report(
+            [f"line {lines[i]}: duplicate of the epoch at {clock(owner[slots[i]])} (line {lines[owner[slots[i]]]}); first kept" for i in sel],
+            [when(i) for i in sel],
+            f"{dup.size} duplicate epochs; the first row of each kept ({line_phrase(lines[dup])})",
+        )
+
+    jump = np.flatnonzero(np.diff(uniq) > 1)
+    if jump.size:
+        messages, times = [], []
+        for k in jump[: MAX_DETAILED + 1]:
+            a, b = first[k], first[k + 1]
+            gap_start = _local(instants[0] + (int(uniq[k]) + 1) * step, tz)
+            gap_end = _local(instants[0] + int(uniq[k + 1]) * step, tz)
+            missing = int(uniq[k + 1] - uniq[k] - 1)
+            messages.append(
+                f"gap: no data from {gap_start:%Y-%m-%d %H:%M:%S%z} until {gap_end:%Y-%m-%d %H:%M:%S%z} "
+                f"({missing} missing epoch(s), {missing * epoch_s / 60:g} min) between line {lines[a]} and line {lines[b]}"
+            )
+            times.append(gap_start)
+        total = int((np.diff(uniq)[jump] - 1).sum())
+        problems += _report(messages, times, f"{jump.size} gaps in all, {total} missing epochs (counts NaN)")
+    return slots, first, problems
+
+
+def _parse_counts(values: pd.Series, lines: np.ndarray, instants: np.ndarray, tz: str):
+    """Counts as float64; missing, non-numeric or negative values become NaN and are reported."""
+    text = values.str.strip()
+    try:  # every cell a number: the fast path
+        counts = text.astype(np.float64).to_numpy(dtype=np.float64, na_value=np.nan).copy()
+    except (ValueError, TypeError):
+        counts = pd.to_numeric(text, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan).copy()
+    problems: list[Problem] = []
+    blank = (text == "").to_numpy()
+    bad = ~np.isfinite(counts) & ~blank
+    negative = np.isfinite(counts) & (counts < 0)
+    for mask, what in ((blank, "counts missing"), (bad, "counts not a number"), (negative, "negative counts")):
+        idx = np.flatnonzero(mask)
+        if idx.size:
+            example = f" (e.g. {text.iloc[idx[0]][:20]!r})" if what == "counts not a number" else ""
+            problems.append(
+                Problem(
+                    "warning",
+                    f"{what} on {idx.size} row(s){example}, read as missing: {line_phrase(lines[idx])}",
+                    time=_local(instants[idx[0]], tz),
+                )
+            )
+    counts[bad | negative] = np.nan
+    return counts, problems
+
+
+_TRUE = {"1", "1.0", "true", "yes", "y", "t"}
+_FALSE = {"0", "0.0", "false", "no", "n", "f"}
+
+
+def _parse_flags(values: pd.Series, lines, instants, tz: str, key: str, *, blank_ok: bool):
+    """A 0/1 column as bool; blank (unless ``blank_ok``) and other values read as False and reported."""
+    text = values.str.strip().str.lower()
+    flags = text.isin(_TRUE).to_numpy()
+    known = flags | text.isin(_FALSE).to_numpy()
+    blank = (text == "").to_numpy()
+    problems = []
+    for mask, what in ((~known & ~blank, "not 0 or 1"), (blank & (not blank_ok), "missing")):
+        idx = np.flatnonzero(mask)
+        if idx.size:
+            problems.append(
+                Problem(
+                    "warning",
+                    f"{key} {what} on {idx.size} row(s), read as 0: {line_phrase(lines[idx])}",
+                    time=_local(instants[idx[0]], tz),
+                )
+            )
+    return flags, problems

@@ -1,0 +1,221 @@
+"""Sleep-diary CSV reader: one entry per participant and night, times in local time.
+
+Clock times ``HH:MM`` follow the noon rule (DESIGN.md): at or after 12:00 on
+the night's date, before 12:00 on the next day. Full ISO timestamps are read
+as given (with an offset) or as wall clock in the study zone. Problems are
+reported, never fixed: a row whose times are in an impossible order is left
+out for that night with an error naming the line.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+import re
+from pathlib import Path
+
+import pandas as pd
+
+from ..config import DIARY_COLUMN_KEYS
+from ..errors import ReadError
+from ..records import Diary, DiaryEntry, Problem
+from ..timeutil import clock_on_night, localize, zone
+from ._csvtext import find_column, is_blank_row, missing_column_message, ragged_problems, read_table
+
+DIARY_DEFAULT_COLUMNS = {k: k for k in DIARY_COLUMN_KEYS}
+TIME_KEYS = ("bedtime", "tried_to_sleep", "final_awakening", "out_of_bed")
+NUMBER_KEYS = ("sol_min", "nwak", "waso_min", "quality")
+_LABEL = {
+    "bedtime": "bedtime",
+    "tried_to_sleep": "tried to sleep",
+    "final_awakening": "final awakening",
+    "out_of_bed": "out of bed",
+}
+# (earlier, later): the later one may not come before the earlier one.
+_ORDER = (
+    ("bedtime", "tried_to_sleep"),
+    ("tried_to_sleep", "final_awakening"),
+    ("tried_to_sleep", "out_of_bed"),
+    ("final_awakening", "out_of_bed"),
+)
+_CLOCK_RE = re.compile(r"^(\d{1,2}):(\d{2})(?::(\d{2}))?$")
+_DATE_RE = re.compile(r"^\d{4}-\d{2}-\d{2}")
+
+
+def read_diary(
+    path, tz: str, *, columns: dict[str, str] | None = None, participant: str | None = None
+) -> Diary:
+    """Read a sleep-diary CSV: one DiaryEntry per (participant, night).
+
+    ``participant`` comes from the file name; a ``participant`` column, if the
+    file has one, wins. ``columns`` maps our keys to the file's column names
+    (study.toml ``[diary] columns``).
+    """
+    path = Path(path)
+    try:
+        zone(tz)
+    except ValueError as exc:
+        raise ReadError(path, str(exc)) from None
+    names = dict(DIARY_DEFAULT_COLUMNS)
+    names.update(columns or {})
+    table = read_table(path)
+    problems: list[Problem] = ragged_problems(table)
+
+    col = {key: find_column(table.header, names[key]) for key in DIARY_COLUMN_KEYS}
+    if col["night"] is None:
+        raise ReadError(path, missing_column_message("night", names["night"], table.header, "diary"))
+    if col["participant"] is None and not participant:
+        raise ReadError(
+            path,
+            "no participant: the file has no "
+            + repr(names["participant"])
+            + " column and its name gives no participant ID; add the column or name the file <participant>_diary.csv",
+        )
+    if columns:
+        for key in columns:
+            if key in col and col[key] is None and key != "night":
+                problems.append(Problem("warning", f"column {names[key]!r} (for {key}, set in study.toml) is not in the file"))
+
+    filled = ~is_blank_row(table.cells)
+    cells = table.cells[filled]
+    lines = table.lines[filled]
+    if len(cells) == 0:
+        raise ReadError(path, "the file has a header but no diary rows")
+
+    records = cells.to_numpy(dtype=object)
+    entries: list[DiaryEntry] = []
+    seen: dict[tuple[str, dt.date], int] = {}
+    for values, line in zip(records, lines):
+        line = int(line)
+        cell = {key: str(values[j]).strip() for key, j in col.items() if j is not None}
+        who = cell.get("participant") or participant
+        if not who:
+            problems.append(Problem("warning", f"line {line}: no participant ID; row skipped"))
+            continue
+        night = _parse_night(cell["night"])
+        if night is None:
+            problems.append(
+                Problem("warning", f"line {line}: night {cell['night'][:30]!r} is not a date (use YYYY-MM-DD); row skipped")
+            )
+            continue
+        entry = DiaryEntry(participant=who, night=night, line=line)
+        for key in TIME_KEYS:
+            text = cell.get(key, "")
+            if not text:
+                continue
+            value, note = _parse_time(text, night, tz)
+            if value is None:
+                problems.append(
+                    Problem(
+                        "warning",
+                        f"line {line}, night {night}: column {table.header[col[key]]!r} ({key}) value {text[:30]!r} "
+                        "is not a time (use HH:MM or ISO 8601); left empty",
+                        night=night,
+                    )
+                )
+            else:
+                setattr(entry, key, value)
+                if note:
+                    problems.append(Problem("warning", f"line {line}, night {night}: {key} {text!r} {note}", time=value, night=night))
+        for key in NUMBER_KEYS:
+            text = cell.get(key, "")
+            if not text:
+                continue
+            number = _parse_number(text)
+            if number is None:
+                problems.append(
+                    Problem(
+                        "warning",
+                        f"line {line}, night {night}: column {table.header[col[key]]!r} ({key}) value {text[:30]!r} "
+                        "is not a number of zero or more; left empty",
+                        night=night,
+                    )
+                )
+            else:
+                setattr(entry, key, number)
+
+        disorder = _order_problem(entry)
+        if disorder:
+            problems.append(
+                Problem("error", f"line {line}, night {night}: {disorder}; row rejected for this night, fix the diary", night=night)
+            )
+            continue
+        if (who, night) in seen:
+            problems.append(
+                Problem(
+                    "error",
+                    f"line {line}: participant {who} night {night} already given on line {seen[(who, night)]}; "
+                    "this row rejected (first kept)",
+                    night=night,
+                )
+            )
+            continue
+        seen[(who, night)] = line
+        entries.append(entry)
+    return Diary(path=path, entries=entries, problems=problems)
+
+
+def _parse_night(text: str) -> dt.date | None:
+    """An ISO date (YYYY-MM-DD); a full timestamp is accepted for its date."""
+    if not _DATE_RE.match(text):
+        return None
+    try:
+        return dt.date.fromisoformat(text[:10])
+    except ValueError:
+        return None
+
+
+def _parse_time(text: str, night: dt.date, tz: str) -> tuple[pd.Timestamp | None, str]:
+    """A diary clock time (noon rule) or ISO timestamp as a tz-aware local Timestamp, with a note if odd."""
+    m = _CLOCK_RE.match(text)
+    if m:
+        hour, minute, second = int(m.group(1)), int(m.group(2)), int(m.group(3) or 0)
+        if hour > 23 or minute > 59 or second > 59:
+            return None, ""
+        clock = dt.time(hour, minute, second)
+        value = clock_on_night(clock, night, tz)
+        return value, _dst_note(value, clock)
+    if not _DATE_RE.match(text):
+        return None, ""
+    try:
+        ts = pd.Timestamp(text)
+    except (ValueError, TypeError, OverflowError):
+        return None, ""
+    if ts is pd.NaT or pd.isna(ts):
+        return None, ""
+    if ts.tzinfo is not None:
+        return ts.tz_convert(tz), ""
+    value = localize(ts, tz)
+    return value, _dst_note(value, ts.time())
+
+
+def _dst_note(value: pd.Timestamp, clock: dt.time) -> str:
+    """Say so when a wall time did not exist (spring gap) or occurred twice (autumn) in the zone."""
+    if value.time() != clock:
+        return f"does not exist on that day (spring-forward gap); read as {value:%H:%M%z}"
+    other = localize(value.tz_localize(None), str(value.tz), fold=1)
+    if other != value:
+        return f"occurs twice on that day (autumn change); read as the first, {value:%H:%M%z}"
+    return ""
+
+
+def _parse_number(text: str) -> float | None:
+    """A non-negative finite number (decimal comma accepted), else None."""
+    try:
+        value = float(text.replace(",", ".")) if text.count(",") == 1 and "." not in text else float(text)
+    except ValueError:
+        return None
+    if not math.isfinite(value) or value < 0:
+        return None
+    return value
+
+
+def _order_problem(entry: DiaryEntry) -> str:
+    """Describe the first impossible order among the entry's times, or '' if they are in order."""
+    for earlier, later in _ORDER:
+        a, b = getattr(entry, earlier), getattr(entry, later)
+        if a is not None and b is not None and b < a:
+            return (
+                f"{_LABEL[later]} {b:%Y-%m-%d %H:%M} is before {_LABEL[earlier]} {a:%Y-%m-%d %H:%M}"
+            )
+    return ""
