@@ -31,6 +31,7 @@ from .fusion.matrix import codebook, participant_matrix
 from .fusion.pairs import agreement_table, paired_nights
 from .pipeline import ParticipantJob, plan_jobs, process_participant
 from .qc import QCEntry, QCLog
+from .review import REVIEW_FILE, Decision, apply_decisions, load_decisions
 from .scoring.actigraphy import COLE_KRIPKE_COEFFICIENTS
 from .scoring.nights import night_table, rhythm_table
 from .study import sha256_of
@@ -134,14 +135,15 @@ def _run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
     return sorted(outcomes, key=lambda o: o.participant)
 
 
-def build_tables(config: StudyConfig, outcomes: list[ParticipantOutcome], qc: QCLog, options: BatchOptions) -> dict[str, pd.DataFrame]:
-    """All output tables from the participants' outcomes."""
+def build_tables(config: StudyConfig, outcomes: list[ParticipantOutcome], qc: QCLog, options: BatchOptions,
+                 decisions: list[Decision] = ()) -> dict[str, pd.DataFrame]:
+    """All output tables from the participants' outcomes, review decisions honoured."""
     from .scoring.nights import ScoredParticipant
 
     scored = [ScoredParticipant(o.participant, rows=o.rows, rhythm=o.rhythm) for o in outcomes]
     for o in outcomes:
         qc.extend(o.qc)
-    nights = night_table(scored)
+    nights = apply_decisions(night_table(scored), list(decisions))
     rhythm = rhythm_table(scored)
     matrix = participant_matrix(nights, rhythm, min_nights=options.min_nights, zscore=options.zscore,
                                 participants=[o.participant for o in outcomes])
@@ -226,9 +228,13 @@ def run_batch(
     qc = QCLog()
     if config.study.timezone_from_machine:
         qc.info(f"study.toml gives no [study] timezone; using this machine's zone {config.timezone}", file="study.toml")
+    decisions = load_decisions(study)
     jobs, files = plan_jobs(config, qc)
     outcomes = _run_jobs(config, jobs, options.workers, progress)
-    tables = build_tables(config, outcomes, qc, options)
+    tables = build_tables(config, outcomes, qc, options, decisions)
+    inputs = [i for o in outcomes for i in o.inputs]
+    seen = {i["file"] for i in inputs}
+    inputs += [_input_record(config, p, "diary") for p in files if _rel(config, p) not in seen]
     out = Path(options.out)
     out.mkdir(parents=True, exist_ok=True)
     written = [write_table(tables[name], out / name, options.format) for name in OUTPUT_TABLES]
@@ -249,7 +255,9 @@ def run_batch(
         "algorithm": algorithm_provenance(config),
         "options": {"format": options.format, "plots": options.plots, "workers": options.workers,
                     "zscore": options.zscore, "min_nights": options.min_nights},
-        "inputs": sorted((i for o in outcomes for i in o.inputs), key=lambda i: i["file"]),
+        "review_decisions": {"file": REVIEW_FILE if decisions else None,
+                             "decisions": [vars(d) for d in decisions]},
+        "inputs": sorted(inputs, key=lambda i: i["file"]),
         "outputs": [p.name for p in written],
         "counts": {
             "participants": len(outcomes),

@@ -90,10 +90,12 @@ def run_study(
 
 def assemble(config: StudyConfig, scored: Iterable[ScoredParticipant], qc: QCLog, files: list[Path],
              *, keep_detail: bool = True) -> StudyResult:
+    from .review import apply_decisions, load_decisions
+
     scored = list(scored)
     return StudyResult(
         config=config,
-        nights=night_table(scored),
+        nights=apply_decisions(night_table(scored), load_decisions(config.root)),
         rhythm=rhythm_table(scored),
         qc=qc,
         participants={s.participant: s for s in scored} if keep_detail else {},

@@ -47,13 +47,18 @@ def machine_timezone() -> str:
 def localize(naive: pd.Timestamp | dt.datetime, tz: str, *, fold: int = 0) -> pd.Timestamp:
     """Wall-clock time in zone ``tz``; ``fold=1`` picks the second of a repeated hour.
 
-    A non-existent wall time (inside the spring-forward gap) is shifted forward
-    by the gap, as a clock that was not changed would show it.
+    A non-existent wall time (inside the spring-forward gap) is read with the
+    UTC offset in force before the change (PEP 495), i.e. shifted forward by
+    the size of the gap, as a clock that was not changed would show it.
     """
     ts = pd.Timestamp(naive)
     if ts.tzinfo is not None:
         return ts.tz_convert(tz)
-    return ts.tz_localize(tz, ambiguous=not bool(fold), nonexistent="shift_forward")
+    aware = ts.to_pydatetime().replace(tzinfo=zone(tz), fold=1 if fold else 0)
+    out = pd.Timestamp(aware.astimezone(dt.timezone.utc)).tz_convert(tz)
+    if ts.nanosecond:
+        out += pd.Timedelta(nanoseconds=ts.nanosecond)
+    return out
 
 
 def night_of(ts: pd.Timestamp) -> dt.date:

@@ -21,10 +21,10 @@ def paired_nights(nights: pd.DataFrame, test: str, reference: str) -> pd.DataFra
     """One row per (participant, night) that both sources have and include, with both values of every shared parameter."""
     params = shared_parameters(test, reference)
     inc = nights[nights["included"]]
-    a = inc[inc["source"] == test].set_index(["participant", "night"])[params]
-    b = inc[inc["source"] == reference].set_index(["participant", "night"])[params]
-    joined = a.join(b, how="inner", lsuffix="_test", rsuffix="_ref")
-    return joined.reset_index()
+    keys = ["participant", "night"]
+    a = inc.loc[inc["source"] == test, keys + params]
+    b = inc.loc[inc["source"] == reference, keys + params]
+    return a.merge(b, on=keys, how="inner", suffixes=("_test", "_ref"))
 
 
 def agreement_table(nights: pd.DataFrame, *, confidence: float = 0.95) -> pd.DataFrame:

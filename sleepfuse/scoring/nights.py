@@ -60,10 +60,6 @@ class ActigraphyScoring:
     def minute_times(self) -> pd.DatetimeIndex:
         return self.start + pd.to_timedelta(np.arange(self.codes.size), unit="min")
 
-    def covers(self, night: dt.date) -> bool:
-        end = self.start + pd.Timedelta(minutes=self.codes.size)
-        return self.start.date() <= night + dt.timedelta(days=1) and end.date() >= night
-
 
 @dataclass
 class ScoredParticipant:
@@ -75,6 +71,7 @@ class ScoredParticipant:
     actigraphy: list[ActigraphyScoring] = field(default_factory=list)
     rhythm: dict[str, float] = field(default_factory=dict)
     windows: dict[tuple[str, str], Window] = field(default_factory=dict)  # (night, source) -> window
+    diary: dict[str, DiaryEntry] = field(default_factory=dict)  # ISO night -> usable diary row
 
 
 def _row(participant: str, night: dt.date, source: str) -> dict:
@@ -244,6 +241,7 @@ def score_participant(config: StudyConfig, rec: ParticipantRecords, qc: QCLog) -
         kept = score_diary_entry(config, rec.participant, entry, qc, out)
         if kept is not None and diary_window(kept) is not None:
             usable_diary[entry.night] = kept
+            out.diary[entry.night.isoformat()] = kept
     for h in rec.hypnograms:
         score_psg(config, rec.participant, h, qc, out)
     done: set[dt.date] = set()
