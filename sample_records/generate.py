@@ -3,9 +3,10 @@
 Every participant, night and value here is invented by a seeded simulation
 (sleepfuse.synthetic.cohort); no real person's data. Run from the repo root:
 
-    python sample_records/generate.py
+    python sample_records/generate.py [OUT_DIR]
 
-The output is deterministic: the same files, byte for byte, on every run.
+OUT_DIR defaults to this folder. The output is deterministic: the same files,
+byte for byte, on every run (tests/test_sample_records.py checks it).
 """
 
 from __future__ import annotations
@@ -65,17 +66,24 @@ PLANS = [
 SHARED_DIARY = {"P07", "P08"}
 
 
-def main() -> None:
+def generate(out: Path) -> None:
+    """Write the demo study into ``out`` (its psg/, actigraphy/, diary/ are replaced)."""
     for sub in ("psg", "actigraphy", "diary"):
-        shutil.rmtree(HERE / sub, ignore_errors=True)
-    (HERE / "study.toml").write_text(STUDY_TOML, encoding="utf-8")
+        shutil.rmtree(out / sub, ignore_errors=True)
+    out.mkdir(parents=True, exist_ok=True)
+    (out / "study.toml").write_text(STUDY_TOML, encoding="utf-8")
     shared: list[dict[str, str]] = []
     for i, plan in enumerate(PLANS):
-        simulate_participant(HERE, plan, TZ, seed=20261027 + i,
+        simulate_participant(out, plan, TZ, seed=20261027 + i,
                              diary_rows_out=shared if plan.participant in SHARED_DIARY else None)
-    write_diary(HERE / "diary" / "diary.csv", shared, with_participant=True)
-    total = sum(p.stat().st_size for p in HERE.rglob("*") if p.is_file())
-    print(f"wrote {len(PLANS)} invented participants to {HERE} ({total / 1e6:.1f} MB)")
+    write_diary(out / "diary" / "diary.csv", shared, with_participant=True)
+
+
+def main() -> None:
+    out = Path(sys.argv[1]) if len(sys.argv) > 1 else HERE
+    generate(out)
+    total = sum(p.stat().st_size for p in out.rglob("*") if p.is_file() and p.parent != HERE)
+    print(f"wrote {len(PLANS)} invented participants to {out} ({total / 1e6:.1f} MB)")
 
 
 if __name__ == "__main__":

@@ -24,6 +24,7 @@ class Problem:
     message: str
     time: pd.Timestamp | None = None
     night: dt.date | None = None
+    participant: str | None = None  # set when one file holds many participants
 
 
 @dataclass

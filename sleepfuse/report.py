@@ -28,11 +28,11 @@ def print_check(study: Study, *, quiet: bool = False, out: TextIO) -> None:
         print(f"  {e.severity.upper():7s} {where}: {e.message}", file=out)
     print("\nNights per instrument:", file=out)
     width = max([len("participant")] + [len(p) for p in study.participants])
-    print(f"  {'participant':{width}s}  " + "  ".join(f"{s:26s}" for s in SOURCES), file=out)
+    print(f"  {'participant':{width}s}  " + "  ".join(f"{s:30s}" for s in SOURCES), file=out)
     for pid in study.participant_ids:
         rec = study.participants[pid]
         cells = [_nights_label(rec.nights(s)) for s in SOURCES]
-        print(f"  {pid:{width}s}  " + "  ".join(f"{c:26s}" for c in cells), file=out)
+        print(f"  {pid:{width}s}  " + "  ".join(f"{c:30s}" for c in cells), file=out)
     if not study.participants:
         print("  (no participant could be read)", file=out)
     print(f"\n{RESEARCH_CAUTION}", file=out)

@@ -141,7 +141,7 @@ def _report_problems(qc: QCLog, problems: Iterable[Problem], *, file: str, parti
     for p in problems:
         night = p.night if p.night is not None else (night_of(p.time) if p.time is not None else "")
         qc.add(p.severity if p.severity in ("info", "warning", "error") else "warning", p.message,
-               file=file, participant=participant, night=night)
+               file=file, participant=p.participant or participant, night=night)
 
 
 def read_hypnogram_file(config: StudyConfig, path: Path) -> Hypnogram:

@@ -111,12 +111,13 @@ def read_diary(
                         f"line {line}, night {night}: column {table.header[col[key]]!r} ({key}) value {text[:30]!r} "
                         "is not a time (use HH:MM or ISO 8601); left empty",
                         night=night,
+                        participant=who,
                     )
                 )
             else:
                 setattr(entry, key, value)
                 if note:
-                    problems.append(Problem("warning", f"line {line}, night {night}: {key} {text!r} {note}", time=value, night=night))
+                    problems.append(Problem("warning", f"line {line}, night {night}: {key} {text!r} {note}", time=value, night=night, participant=who))
         for key in NUMBER_KEYS:
             text = cell.get(key, "")
             if not text:
@@ -129,6 +130,7 @@ def read_diary(
                         f"line {line}, night {night}: column {table.header[col[key]]!r} ({key}) value {text[:30]!r} "
                         "is not a number of zero or more; left empty",
                         night=night,
+                        participant=who,
                     )
                 )
             else:
@@ -137,7 +139,7 @@ def read_diary(
         disorder = _order_problem(entry)
         if disorder:
             problems.append(
-                Problem("error", f"line {line}, night {night}: {disorder}; row rejected for this night, fix the diary", night=night)
+                Problem("error", f"line {line}, night {night}: {disorder}; row rejected for this night, fix the diary", night=night, participant=who)
             )
             continue
         if (who, night) in seen:
@@ -147,6 +149,7 @@ def read_diary(
                     f"line {line}: participant {who} night {night} already given on line {seen[(who, night)]}; "
                     "this row rejected (first kept)",
                     night=night,
+                    participant=who,
                 )
             )
             continue

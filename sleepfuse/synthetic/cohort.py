@@ -24,6 +24,7 @@ from .edf_writer import Signal, write_edf_plus
 
 # internal stage codes of the simulation
 W, N1, N2, N3, R = 0, 1, 2, 3, 4
+MT, UNKNOWN = 6, 7  # movement time, a label no map knows (PSG files only)
 AASM_LABELS = {W: "Sleep stage W", N1: "Sleep stage N1", N2: "Sleep stage N2", N3: "Sleep stage N3", R: "Sleep stage R"}
 RK_LABELS = {W: "Sleep stage W", N1: "Sleep stage 1", N2: "Sleep stage 2", N3: "Sleep stage 3", R: "Sleep stage R"}
 LOOSE_LABELS = {W: "Wake", N1: "NREM 1", N2: "stage 2 sleep", N3: "NREM3", R: "REM"}
@@ -138,6 +139,13 @@ def write_psg(path: Path, truth: TrueNight, plan: ParticipantPlan, rng: np.rando
         )
         return
     labels = {"aasm": AASM_LABELS, "rk": RK_LABELS, "loose": LOOSE_LABELS}[style]
+    labels = {**labels, MT: "Movement time", UNKNOWN: "Sleep stage X"}
+    stages = stages.copy()
+    if style == "rk":  # one epoch scored as movement time (R&K)
+        stages[int(rng.integers(stages.size // 3, 2 * stages.size // 3))] = MT
+    if night in plan.unknown_label_nights:  # a label no map knows, on two epochs
+        k = int(rng.integers(stages.size // 4, stages.size // 2))
+        stages[k:k + 2] = UNKNOWN
     # run-length annotations: one annotation per run of a stage (spans many epochs)
     change = np.flatnonzero(np.diff(stages)) + 1
     starts = np.concatenate([[0], change])
@@ -152,12 +160,6 @@ def write_psg(path: Path, truth: TrueNight, plan: ParticipantPlan, rng: np.rando
                 anns.append((30.0 * half, 30.0 * (e - half), "Sleep stage 4"))
             continue
         anns.append((30.0 * s, 30.0 * (e - s), label))
-    if style == "rk":
-        mt = int(rng.integers(stages.size // 3, 2 * stages.size // 3))
-        anns.append((30.0 * mt, 30.0, "Movement time"))
-    if night in plan.unknown_label_nights:
-        k = int(rng.integers(stages.size // 4, stages.size // 2))
-        anns.append((30.0 * k, 60.0, "Sleep stage X"))
     anns.sort(key=lambda a: a[0])
     write_edf_plus(path, start=naive_start, annotations=anns, duration_s=30.0 * stages.size, patient=plan.patient_field)
 
