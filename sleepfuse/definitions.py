@@ -57,6 +57,15 @@ PARAMETERS: dict[str, ParameterInfo] = {
 }
 
 WINDOW_NOTE = _WINDOW
+LABELS = {
+    "tib_min": "TIB", "sol_min": "SOL", "lps_min": "LPS", "tst_min": "TST", "spt_min": "SPT", "waso_min": "WASO",
+    "terminal_wake_min": "Terminal wake", "se_pct": "Sleep efficiency", "nwak": "Wake bouts",
+}
+
+
+def label_of(parameter: str) -> str:
+    """Short trade name of a parameter for figures and screens (e.g. 'TST')."""
+    return LABELS.get(parameter, parameter)
 SOURCE_NAMES = {"psg": "PSG", "actigraphy": "actigraphy", "diary": "diary"}
 PAIRS = (("actigraphy", "psg"), ("diary", "psg"), ("diary", "actigraphy"))
 
