@@ -1,0 +1,194 @@
+"""``sleepfuse explore``: the clustering preview of a participant × feature matrix, headless.
+
+Writes models.csv, membership.csv, standardisation.csv, agreement_between_blocks.csv (when
+several blocks), holdout.csv (with --holdout) and the bic/solution figures (PNG + SVG)
+into --out, atomically; a short summary goes to stdout, progress and problems to stderr.
+Exit status: 0 done, 2 bad command line or unreadable matrix, 1 nothing could be fitted.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+import pandas as pd
+
+from sleepfuse.errors import ConfigError
+from sleepfuse.explore.columns import BLOCKS, PARTICIPANT
+from sleepfuse.explore.mixtures import FAMILIES
+from sleepfuse.explore.output import write_csv_atomic
+from sleepfuse.explore.selection import EXPLORATORY_CAUTION, ExploreResult, explore
+
+DESCRIPTION = (
+    "Look for subgroups of participants in a participant x feature matrix with Gaussian and "
+    "skew-normal mixtures (K = 1..kmax) chosen by BIC. " + EXPLORATORY_CAUTION
+)
+
+
+def add_explore_parser(subparsers) -> argparse.ArgumentParser:
+    """Register the ``explore`` command on an argparse subparsers object (sets func=run_explore)."""
+    p = subparsers.add_parser("explore", help="clustering preview of matrix.csv (exploratory)",
+                              description=DESCRIPTION)
+    p.add_argument("matrix", metavar="MATRIX", help="participant x feature CSV (first column 'participant')")
+    p.add_argument("--columns", help="comma-separated column names or glob patterns, e.g. 'psg_*_mean,diary_sol_min_mean'")
+    p.add_argument("--blocks", help=f"comma-separated instrument blocks: {', '.join(BLOCKS)} (default: all); "
+                                    "a block takes its _mean columns (and the actigraphy rhythm measures)")
+    p.add_argument("--log", metavar="COLUMNS",
+                   help="names or glob patterns of columns fitted as ln(1 + x), for strongly right-skewed "
+                        "minutes such as '*_sol_min_mean,*_waso_min_mean'")
+    p.add_argument("--kmax", type=int, default=5, help="largest number of clusters tried (default 5)")
+    p.add_argument("--starts", type=int, default=10, help="seeded EM starts per model (default 10)")
+    p.add_argument("--seed", type=int, default=0, help="seed of the starts and of the holdout split (default 0)")
+    p.add_argument("--holdout", type=float, metavar="FRACTION",
+                   help="keep this fraction of participants as a validation sample, e.g. 0.3")
+    p.add_argument("--families", default=",".join(FAMILIES),
+                   help=f"comma-separated mixture families (default {','.join(FAMILIES)})")
+    p.add_argument("--max-iter", type=int, default=1000, dest="max_iter",
+                   help="EM iterations per start before giving up on convergence (default 1000)")
+    p.add_argument("--out", required=True, metavar="DIR", help="folder for the outputs (created if needed)")
+    p.set_defaults(func=run_explore)
+    return p
+
+
+def _say(message: str) -> None:
+    print(f"sleepfuse explore: {message}", file=sys.stderr, flush=True)
+
+
+def _check_options(args) -> tuple[str, ...]:
+    families = tuple(f.strip() for f in str(args.families).split(",") if f.strip())
+    for f in families:
+        if f not in FAMILIES:
+            raise ConfigError("--families", f, ", ".join(FAMILIES))
+    if not families:
+        raise ConfigError("--families", args.families, ", ".join(FAMILIES))
+    if args.kmax < 1:
+        raise ConfigError("--kmax", args.kmax, "a whole number of at least 1")
+    if args.starts < 1:
+        raise ConfigError("--starts", args.starts, "a whole number of at least 1")
+    if getattr(args, "max_iter", 1000) < 1:
+        raise ConfigError("--max-iter", args.max_iter, "a whole number of at least 1")
+    if args.holdout is not None and not 0.0 < args.holdout < 1.0:
+        raise ConfigError("--holdout", args.holdout, "a fraction strictly between 0 and 1, e.g. 0.3")
+    return families
+
+
+def read_matrix(path: str | Path) -> pd.DataFrame:
+    """The matrix CSV with participant IDs kept as text; ConfigError when it cannot be used."""
+    path = Path(path)
+    try:
+        matrix = pd.read_csv(path, dtype={PARTICIPANT: str})
+    except FileNotFoundError:
+        raise ConfigError("MATRIX", str(path), "an existing CSV file") from None
+    except (OSError, ValueError, pd.errors.ParserError) as exc:
+        raise ConfigError("MATRIX", str(path), f"a readable CSV file ({exc})") from None
+    if PARTICIPANT not in matrix.columns:
+        raise ConfigError("MATRIX", str(path), f"a CSV whose first column is '{PARTICIPANT}'")
+    duplicated = matrix[PARTICIPANT][matrix[PARTICIPANT].duplicated()].unique()
+    if len(duplicated):
+        raise ConfigError("MATRIX", str(path), "one row per participant (repeated: "
+                          + ", ".join(map(str, duplicated[:5])) + ")")
+    return matrix
+
+
+def write_outputs(result: ExploreResult, out: str | Path) -> list[Path]:
+    """All tables and figures of a run into ``out``, each written atomically."""
+    out = Path(out)
+    written = [
+        write_csv_atomic(result.models, out / "models.csv"),
+        write_csv_atomic(result.membership, out / "membership.csv"),
+        write_csv_atomic(pd.concat([b.data.standardisation() for b in result.blocks], ignore_index=True),
+                         out / "standardisation.csv"),
+    ]
+    if len(result.blocks) > 1:
+        written.append(write_csv_atomic(result.agreement, out / "agreement_between_blocks.csv"))
+    holdouts = [b.holdout.summary(b.name) for b in result.blocks if b.holdout is not None]
+    if holdouts:
+        written.append(write_csv_atomic(pd.DataFrame(holdouts), out / "holdout.csv"))
+    from sleepfuse.explore.figures import plot_bic, plot_solution
+
+    written += plot_bic(result, out / "bic")
+    written += plot_solution(result, out / "solution")
+    return written
+
+
+def summary_lines(result: ExploreResult) -> list[str]:
+    """The short plain-text summary printed to stdout."""
+    lines = []
+    for block in result.blocks:
+        data = block.data
+        n_out = len(data.excluded)
+        head = f"[{block.name}] {len(data.participants)} participants"
+        if block.validation is not None:
+            head += f" in development, {len(block.validation.participants)} in validation"
+        head += f", {len(data.columns)} column(s); {n_out} left out for missing values"
+        lines.append(head)
+        for note in block.notes:
+            lines.append(f"  note: {note}")
+        best = block.preferred
+        if best is None:
+            lines.append("  no model could be fitted (see models.csv, column message)")
+            continue
+        sizes = ", ".join(f"{int(r.n_assigned)}" for r in block.cluster_sizes.itertuples())
+        lines.append(f"  preferred by BIC: {best.family}, K={best.n_components} "
+                     f"(BIC {best.bic:.1f}); cluster sizes {sizes}")
+        table = block.models
+        table = table[table["set"] != "validation"]
+        for family, rows in table.groupby("family", sort=False):
+            bics = "  ".join(f"K={int(r.K)}: {r.BIC:.1f}" if pd.notna(r.BIC) else f"K={int(r.K)}: failed"
+                             for r in rows.itertuples())
+            lines.append(f"  {family:<10} {bics}")
+        if block.holdout is not None:
+            h = block.holdout
+            val = f"{h.validation[0]}, K={h.validation[1]}" if h.validation else "nothing fitted"
+            lines.append(f"  validation sample prefers {val}: the development choice "
+                         f"{'holds' if h.holds else 'does NOT hold'}")
+    if len(result.blocks) > 1:
+        for r in result.agreement.itertuples():
+            ari = f"{r.ari:.2f}" if pd.notna(r.ari) else "not defined"
+            note = f" ({r.note})" if r.note else ""
+            lines.append(f"agreement {r.block_a} vs {r.block_b}: adjusted Rand index {ari} "
+                         f"over {r.n_participants} participants{note}")
+    lines.append(EXPLORATORY_CAUTION)
+    return lines
+
+
+def run_explore(args) -> int:
+    """Run the explore command from parsed arguments; returns the exit status."""
+    try:
+        families = _check_options(args)
+        matrix = read_matrix(args.matrix)
+        result = explore(matrix, args.columns, args.blocks, families=families, kmax=args.kmax,
+                         starts=args.starts, seed=args.seed, holdout=args.holdout, progress=_say,
+                         log=getattr(args, "log", None), max_iter=getattr(args, "max_iter", 1000))
+    except ConfigError as exc:
+        _say(f"error: {exc}")
+        return 2
+    for block in result.blocks:
+        for note in block.notes:
+            _say(f"{block.name}: {note}")
+        for row in block.models.itertuples():
+            if row.message:
+                _say(f"{block.name} {row.set} {row.family} K={row.K}: {row.message}")
+    try:
+        written = write_outputs(result, args.out)
+    except OSError as exc:
+        _say(f"error: cannot write to {args.out}: {exc}")
+        return 2
+    for line in summary_lines(result):
+        print(line)
+    _say(f"wrote {len(written)} files to {args.out}")
+    return 0 if result.any_fitted else 1
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Stand-alone entry (``python -m sleepfuse.explore.cli``) until the main CLI registers the command."""
+    parser = argparse.ArgumentParser(prog="sleepfuse")
+    sub = parser.add_subparsers(dest="command", required=True)
+    add_explore_parser(sub)
+    args = parser.parse_args(argv)
+    return args.func(args)
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

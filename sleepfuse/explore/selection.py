@@ -1,0 +1,291 @@
+"""Model choice for the clustering preview: BIC table, preferred model, membership, agreement.
+
+For every column set, every (family, K) is fitted by EM (``mixtures``); the preferred
+model is the one with the smallest BIC (Schwarz 1978; Fraley & Raftery 2002, *JASA*
+97:611-631, for its use in choosing mixture models). Partitions from different
+instrument blocks are compared with the adjusted Rand index (Hubert & Arabie 1985,
+*J Classif* 2:193-218).
+
+Clustering is exploratory: it generates hypotheses, and any subgroup needs a separate
+validation sample (``holdout``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from itertools import combinations
+from typing import Callable
+
+import numpy as np
+import pandas as pd
+
+from sleepfuse.explore.columns import ColumnSet, PreparedData, column_sets, columns_by_pattern, prepare
+from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures
+
+EXPLORATORY_CAUTION = (
+    "Clustering is exploratory: it generates hypotheses, and any subgroup needs "
+    "confirmation in a separate validation sample."
+)
+MODEL_COLUMNS = ["block", "set", "family", "K", "loglik", "n_params", "BIC", "converged", "n_iter", "message"]
+MEMBERSHIP_COLUMNS = ["participant", "block", "set", "family", "K", "cluster", "probability", "reason"]
+
+
+def models_table(fits: list[MixtureFit], block: str = "", set_name: str = "all") -> pd.DataFrame:
+    """One row per (family, K): loglik, free parameters, BIC, convergence and any message."""
+    rows = [{
+        "block": block, "set": set_name, "family": f.family, "K": f.n_components,
+        "loglik": f.loglik if f.ok else np.nan, "n_params": f.n_params, "BIC": f.bic,
+        "converged": bool(f.converged), "n_iter": f.n_iter, "message": f.message,
+    } for f in fits]
+    return pd.DataFrame(rows, columns=MODEL_COLUMNS)
+
+
+def preferred_fit(fits: list[MixtureFit]) -> MixtureFit | None:
+    """The usable fit with the smallest BIC, or None when nothing could be fitted."""
+    usable = [f for f in fits if f.ok]
+    return min(usable, key=lambda f: f.bic) if usable else None
+
+
+def adjusted_rand_index(labels_a, labels_b) -> float:
+    """Adjusted Rand index of two partitions of the same items (Hubert & Arabie 1985, eq. 5).
+
+    1 for identical partitions, about 0 for chance agreement; like scikit-learn, 1 when
+    both partitions are trivial in the same way (one cluster, or all singletons).
+    """
+    a = np.unique(np.asarray(labels_a), return_inverse=True)[1].ravel()
+    b = np.unique(np.asarray(labels_b), return_inverse=True)[1].ravel()
+    if a.size != b.size:
+        raise ValueError("the two partitions must label the same items")
+    n = a.size
+    table = np.zeros((a.max() + 1 if n else 0, b.max() + 1 if n else 0))
+    np.add.at(table, (a, b), 1.0)
+    na, nb = table.shape
+    if n == 0 or na == nb == 1 or na == nb == n:
+        return 1.0
+
+    def pairs(counts):
+        return float(np.sum(counts * (counts - 1.0) / 2.0))
+
+    index = pairs(table)
+    row, col = pairs(table.sum(axis=1)), pairs(table.sum(axis=0))
+    expected = row * col / (n * (n - 1.0) / 2.0)
+    maximum = 0.5 * (row + col)
+    return float((index - expected) / (maximum - expected)) if maximum != expected else 0.0
+
+
+@dataclass
+class HoldoutResult:
+    """Whether the development sample's preferred (family, K) is found again in the validation sample."""
+
+    fraction: float
+    seed: int
+    n_development: int
+    n_validation: int
+    development: tuple[str, int] | None
+    validation: tuple[str, int] | None
+    validation_fits: list[MixtureFit]
+    validation_loglik: float          # development-preferred model on the validation sample (dev z-scale)
+
+    @property
+    def holds(self) -> bool:
+        return self.development is not None and self.development == self.validation
+
+    def summary(self, block: str) -> dict:
+        dev, val = self.development or (None, None), self.validation or (None, None)
+        return {
+            "block": block, "fraction": self.fraction, "seed": self.seed,
+            "n_development": self.n_development, "n_validation": self.n_validation,
+            "development_family": dev[0], "development_K": dev[1],
+            "validation_family": val[0], "validation_K": val[1],
+            "family_holds": dev[0] is not None and dev[0] == val[0],
+            "K_holds": dev[1] is not None and dev[1] == val[1], "holds": self.holds,
+            "validation_loglik_of_development_model": self.validation_loglik,
+            "validation_loglik_per_participant": (self.validation_loglik / self.n_validation
+                                                  if self.n_validation else np.nan),
+        }
+
+
+@dataclass
+class BlockResult:
+    """Everything a report or a screen needs about one column set."""
+
+    name: str
+    data: PreparedData                          # the fitted (development) participants
+    fits: list[MixtureFit]
+    validation: PreparedData | None = None
+    holdout: HoldoutResult | None = None
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def preferred(self) -> MixtureFit | None:
+        return preferred_fit(self.fits)
+
+    @property
+    def models(self) -> pd.DataFrame:
+        """The BIC table: one row per (set, family, K)."""
+        tables = [models_table(self.fits, self.name, "development" if self.holdout else "all")]
+        if self.holdout:
+            tables.append(models_table(self.holdout.validation_fits, self.name, "validation"))
+        return pd.concat(tables, ignore_index=True)
+
+    def labels(self) -> dict[str, int]:
+        """Participant → cluster (1..K) under the preferred model, for every classified participant."""
+        m = self.membership
+        m = m[m["cluster"].notna()]
+        return dict(zip(m["participant"], m["cluster"].astype(int)))
+
+    @property
+    def membership(self) -> pd.DataFrame:
+        """participant, block, set, family, K, cluster (1..K), probability; left-out participants with a reason."""
+        best = self.preferred
+        frames = []
+        sets = [("development" if self.holdout else "all", self.data.participants, self.data.z)]
+        if self.validation is not None and len(self.validation.participants):
+            sets.append(("validation", self.validation.participants, self.data.standardise(self.validation.raw)))
+        if best is not None:
+            for set_name, who, z in sets:
+                post = best.posterior(z)
+                frames.append(pd.DataFrame({
+                    "participant": who, "block": self.name, "set": set_name, "family": best.family,
+                    "K": best.n_components, "cluster": pd.array(post.argmax(axis=1) + 1, dtype="Int64"),
+                    "probability": post.max(axis=1), "reason": "",
+                }))
+        else:
+            for set_name, who, _ in sets:
+                frames.append(pd.DataFrame({"participant": who, "block": self.name, "set": set_name,
+                                            "reason": "no model could be fitted"}))
+        excluded = self.data.excluded
+        frames.append(pd.DataFrame({"participant": excluded["participant"], "block": self.name,
+                                    "set": "", "reason": excluded["reason"]}))
+        out = pd.concat([f for f in frames if len(f)], ignore_index=True) if any(len(f) for f in frames) \
+            else pd.DataFrame(columns=MEMBERSHIP_COLUMNS)
+        out = out.reindex(columns=MEMBERSHIP_COLUMNS)
+        out["cluster"] = out["cluster"].astype("Int64")
+        out["K"] = out["K"].astype("Int64")
+        return out
+
+    @property
+    def cluster_sizes(self) -> pd.DataFrame:
+        """cluster, n_assigned (highest posterior), expected (sum of posteriors), weight, for the preferred model."""
+        best = self.preferred
+        if best is None:
+            return pd.DataFrame(columns=["block", "cluster", "n_assigned", "expected", "weight"])
+        post = best.posterior(self.data.z)
+        assigned = np.bincount(post.argmax(axis=1), minlength=best.n_components)
+        return pd.DataFrame({"block": self.name, "cluster": np.arange(1, best.n_components + 1),
+                             "n_assigned": assigned, "expected": post.sum(axis=0), "weight": best.weights})
+
+
+@dataclass
+class ExploreResult:
+    """All column sets of one run, and how much their partitions agree."""
+
+    blocks: list[BlockResult]
+    agreement: pd.DataFrame
+
+    @property
+    def models(self) -> pd.DataFrame:
+        return pd.concat([b.models for b in self.blocks], ignore_index=True)
+
+    @property
+    def membership(self) -> pd.DataFrame:
+        return pd.concat([b.membership for b in self.blocks], ignore_index=True)
+
+    @property
+    def cluster_sizes(self) -> pd.DataFrame:
+        return pd.concat([b.cluster_sizes for b in self.blocks], ignore_index=True)
+
+    @property
+    def any_fitted(self) -> bool:
+        return any(b.preferred is not None for b in self.blocks)
+
+
+def agreement_between_blocks(blocks: list[BlockResult]) -> pd.DataFrame:
+    """Adjusted Rand index between the preferred partitions of every pair of blocks, over shared participants."""
+    rows = []
+    for a, b in combinations(blocks, 2):
+        la, lb = a.labels(), b.labels()
+        shared = sorted(set(la) & set(lb))
+        pa, pb = a.preferred, b.preferred
+        rows.append({
+            "block_a": a.name, "block_b": b.name, "n_participants": len(shared),
+            "model_a": f"{pa.family} K={pa.n_components}" if pa else "",
+            "model_b": f"{pb.family} K={pb.n_components}" if pb else "",
+            "ari": adjusted_rand_index([la[p] for p in shared], [lb[p] for p in shared]) if len(shared) > 1 else np.nan,
+            "note": "",
+        })
+        single = [blk.name for blk, fit in ((a, pa), (b, pb)) if fit is not None and fit.n_components == 1]
+        if pa is None or pb is None:
+            rows[-1]["note"] = "no model could be fitted in one of the blocks"
+        elif len(single) == 2:
+            rows[-1]["ari"] = np.nan
+            rows[-1]["note"] = "neither block shows subgroups (K = 1): nothing to compare"
+        elif single:
+            rows[-1]["note"] = f"{single[0]} shows no subgroups (K = 1), so the index is 0 by construction"
+    return pd.DataFrame(rows, columns=["block_a", "block_b", "n_participants", "model_a", "model_b", "ari", "note"])
+
+
+def explore_block(
+    data: PreparedData,
+    *,
+    families: tuple[str, ...] = FAMILIES,
+    kmax: int = 5,
+    holdout: float | None = None,
+    seed: int = 0,
+    **fit_options,
+) -> BlockResult:
+    """Fit every (family, K ≤ kmax) to one prepared column set; with ``holdout`` split it first."""
+    from sleepfuse.explore.holdout import run_holdout, split_participants
+
+    notes = list(data.notes)
+    n, d = data.raw.shape
+    if d and n < 10 * d:
+        notes.append(f"{n} participants for {d} column(s): full-covariance mixtures need many participants per "
+                     f"column (common practice: at least 10 per column); consider fewer columns with --columns")
+    if not data.columns:
+        return BlockResult(data.column_set, data, [], notes=notes + ["no usable column"])
+    if holdout:
+        dev_idx, val_idx = split_participants(len(data.participants), holdout, seed)
+        development, validation = data.subset(dev_idx), data.subset(val_idx)
+        fits = fit_mixtures(development.z, families, kmax, seed=seed, **fit_options)
+        result = BlockResult(data.column_set, development, fits, validation=validation, notes=notes)
+        result.holdout = run_holdout(development, validation, preferred_fit(fits), holdout,
+                                     families=families, kmax=kmax, seed=seed, **fit_options)
+        return result
+    fits = fit_mixtures(data.z, families, kmax, seed=seed, **fit_options)
+    return BlockResult(data.column_set, data, fits, notes=notes)
+
+
+def explore(
+    matrix: pd.DataFrame,
+    columns: str | None = None,
+    blocks: str | None = None,
+    *,
+    families: tuple[str, ...] = FAMILIES,
+    kmax: int = 5,
+    starts: int = 10,
+    seed: int = 0,
+    holdout: float | None = None,
+    log: str | None = None,
+    progress: Callable[[str], None] | None = None,
+    **fit_options,
+) -> ExploreResult:
+    """The clustering preview of a participant × feature matrix (the entry point for CLI and TUI).
+
+    ``columns`` are comma-separated names or glob patterns; ``blocks`` a comma-separated
+    list of diary, actigraphy, psg, all (default ``all``); ``log`` names or patterns of the
+    columns fitted as ln(1 + x). Raises ConfigError for a bad
+    column specification; a (family, K) that cannot be fitted is reported, not raised.
+    """
+    sets: list[ColumnSet] = column_sets(list(matrix.columns), columns, blocks)
+    logged = set(columns_by_pattern(list(matrix.columns), log)) if log else set()
+    results = []
+    for cs in sets:
+        data = prepare(matrix, cs, logged)
+        if progress:
+            progress(f"{cs.name}: {len(data.participants)} participant(s), {len(data.columns)} column(s), "
+                     f"{len(data.excluded)} left out for missing values")
+        results.append(explore_block(data, families=families, kmax=kmax, holdout=holdout, seed=seed,
+                                     starts=starts, **fit_options))
+    return ExploreResult(results, agreement_between_blocks(results) if len(results) > 1 else
+                         agreement_between_blocks([]))
