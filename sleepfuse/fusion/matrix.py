@@ -9,8 +9,17 @@ import pandas as pd
 
 from ..definitions import PARAMETERS, SOURCE_NAMES, WINDOW_NOTE
 from ..scoring.nights import SOURCE_PARAMETERS
+from ..scoring.opportunity import MARKER_RULE
+from ..scoring.rest_interval import REST_INTERVAL_RULE
 from ..scoring.rhythm import RHYTHM_PARAMETERS
 
+_WINDOW_RULES = {
+    "psg": "Sleep opportunity: lights off to lights on (AASM); without markers, first to last scored epoch (QC note).",
+    "actigraphy": ("Sleep opportunity: the diary's tried to sleep to out of bed for the night; else event markers; "
+                   "else the automatic rest interval. " + MARKER_RULE + " " + REST_INTERVAL_RULE
+                   + " Sleep/wake and non-wear rules are named in provenance.json."),
+    "diary": "Sleep opportunity: tried to sleep to out of bed; rows with impossible times are rejected (QC error).",
+}
 CODEBOOK_COLUMNS = ["name", "source", "parameter", "statistic", "unit", "definition", "n_nonmissing", "skewness"]
 SOURCES = ("psg", "actigraphy", "diary")
 
@@ -75,7 +84,7 @@ def codebook(matrix: pd.DataFrame, *, min_nights: int = 1, zscore: bool = False)
         col = pd.to_numeric(matrix[name], errors="coerce")
         src = SOURCE_NAMES[source]
         if stat == "nights":
-            unit, definition = "nights", f"Number of included {src} nights of the participant."
+            unit, definition = "nights", f"Number of included {src} nights of the participant. {_WINDOW_RULES[source]}"
         else:
             info = PARAMETERS[param]
             unit = "z-score" if zscore else info.unit
