@@ -1,0 +1,98 @@
+"""The sleepfuse terminal app: wires the screens together, nothing else.
+
+``create_app`` is the one factory for the CLI and the tests; pass
+``preloaded`` (a StudyResult or Workspace) to skip scoring, e.g. in tests.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from textual.app import App
+from textual.binding import Binding
+
+from ..pipeline import StudyResult
+from ..workspace import PairChoice, Workspace
+from .screens.agreement import AgreementScreen
+from .screens.disagreements import DisagreementScreen
+from .screens.export import ExportScreen
+from .screens.help import HelpScreen
+from .screens.night import NightScreen
+from .screens.overview import OverviewScreen
+from .screens.review import ReviewDialog
+
+
+class SleepfuseApp(App):
+    """Overview first; night, disagreements, agreement, export and help are pushed on top."""
+
+    TITLE = "sleepfuse"
+    ENABLE_COMMAND_PALETTE = False
+    BINDINGS = [Binding("question_mark", "help", "Help", key_display="?")]
+
+    def __init__(self, study: Path, *, workspace: Workspace | None = None, study_name: str = "",
+                 export_dir: Path | None = None) -> None:
+        super().__init__()
+        self.study = Path(study)
+        self.workspace = workspace
+        self.study_name = study_name or (workspace.name if workspace else self.study.name)
+        self.export_dir = Path(export_dir) if export_dir else self.study.resolve().parent / f"{self.study.name}-sleepfuse-out"
+        self.choice = PairChoice()
+
+    def on_mount(self) -> None:
+        self.push_screen(OverviewScreen())
+
+    def _loaded(self) -> bool:
+        if self.workspace is None:
+            self.notify("the study is still loading", severity="warning")
+            return False
+        return True
+
+    def open_night(self, participant: str, night: str) -> None:
+        if self._loaded():
+            self.push_screen(NightScreen(participant, night))
+
+    def action_disagreements(self) -> None:
+        if self._loaded():
+            self.push_screen(DisagreementScreen())
+
+    def action_agreement(self) -> None:
+        if self._loaded():
+            self.push_screen(AgreementScreen())
+
+    def action_export(self) -> None:
+        self.push_screen(ExportScreen(self.study, self.export_dir))
+
+    def action_help(self) -> None:
+        if not isinstance(self.screen, HelpScreen):
+            self.push_screen(HelpScreen())
+
+    def help_sections(self) -> list:
+        """(screen title, bindings, extra keys) for the help screen."""
+        return [
+            ("Everywhere", list(self.BINDINGS) + [Binding("ctrl+q", "quit", "Quit at once")], []),
+            ("Study overview", OverviewScreen.BINDINGS, OverviewScreen.HELP_KEYS),
+            ("Night view", NightScreen.BINDINGS, [("↑ ↓", "scroll the parameter table")]),
+            ("Disagreements", DisagreementScreen.BINDINGS, [("↑ ↓", "move in the ranking")]),
+            ("Agreement", AgreementScreen.BINDINGS, []),
+            ("Review dialog (x, i)", ReviewDialog.BINDINGS,
+             [("enter", "save the decision")]),
+            ("Export (e)", ExportScreen.BINDINGS, [("enter", "start the export into the folder typed")]),
+            ("Help", HelpScreen.BINDINGS, []),
+        ]
+
+
+def create_app(study: str | Path, *, preloaded: StudyResult | Workspace | None = None,
+               export_dir: str | Path | None = None) -> SleepfuseApp:
+    """The app for one study folder; scoring happens in a worker unless ``preloaded`` is given."""
+    study = Path(study)
+    workspace = Workspace.from_result(study, preloaded) if isinstance(preloaded, StudyResult) else preloaded
+    name = ""
+    if workspace is None:
+        from ..config import load_config
+        from ..errors import ConfigError
+
+        try:
+            name = load_config(study).study.name
+        except (ConfigError, OSError):
+            name = study.name  # the loading worker reports the error on screen
+    return SleepfuseApp(study, workspace=workspace, study_name=name, export_dir=Path(export_dir) if export_dir else None)

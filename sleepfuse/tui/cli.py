@@ -1,0 +1,55 @@
+"""``sleepfuse open STUDY``: the terminal app, or a clear message when there is no terminal."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+NO_TTY_MESSAGE = (
+    "sleepfuse open needs an interactive terminal; for headless use run: sleepfuse batch STUDY --out DIR"
+)
+EXIT_USAGE = 2
+
+
+def _study_dir(value: str) -> Path:
+    path = Path(value)
+    if not path.is_dir():
+        raise argparse.ArgumentTypeError(f"{value!r} is not a folder; give the study folder (with psg/, actigraphy/, diary/)")
+    return path
+
+
+def add_open_parser(subparsers) -> argparse.ArgumentParser:
+    """Register ``open`` on the ``sleepfuse`` sub-command parser."""
+    p = subparsers.add_parser(
+        "open",
+        help="open a study in the terminal app (overview, nights, disagreements, agreement, review, export)",
+        description="Open STUDY in the terminal app: a study overview, each night's instruments on one time axis, "
+        "the nights where instruments disagree, Bland–Altman agreement, review decisions and export. "
+        "Needs an interactive terminal; headless, use 'sleepfuse batch'.",
+    )
+    p.add_argument("study", type=_study_dir, metavar="STUDY", help="study folder")
+    p.add_argument("--export-dir", type=Path, metavar="DIR", default=None,
+                   help="default folder offered by the export dialog (default: STUDY-sleepfuse-out beside the study)")
+    p.set_defaults(func=run_open)
+    return p
+
+
+def run_open(args: argparse.Namespace) -> int:
+    """Start the app; without a terminal on stdin and stdout, say so and exit 2 (never start the driver)."""
+    if not (sys.stdin.isatty() and sys.stdout.isatty()):
+        print(NO_TTY_MESSAGE, file=sys.stderr)
+        return EXIT_USAGE
+    from ..config import load_config
+    from ..errors import ConfigError
+
+    try:
+        load_config(args.study)
+    except ConfigError as exc:
+        print(f"sleepfuse: configuration error: {exc}", file=sys.stderr)
+        return EXIT_USAGE
+    from .app import create_app
+
+    app = create_app(args.study, export_dir=getattr(args, "export_dir", None))
+    app.run()
+    return int(app.return_code or 0)

@@ -1,0 +1,60 @@
+"""Messages that workers post back to screens (workers never touch widgets)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pandas as pd
+from textual.message import Message
+
+
+class StudyPlanned(Message):
+    """The study's files were found: these participants will be scored."""
+
+    def __init__(self, participants: list[str]) -> None:
+        super().__init__()
+        self.participants = participants
+
+
+class ParticipantsScored(Message):
+    """A chunk of participants was scored: their night rows (review decisions applied)."""
+
+    def __init__(self, nights: pd.DataFrame, cells: dict, done: int, total: int) -> None:
+        super().__init__()
+        self.nights, self.cells, self.done, self.total = nights, cells, done, total
+
+
+class StudyLoaded(Message):
+    """Every participant is scored; the workspace is complete."""
+
+    def __init__(self, workspace) -> None:
+        super().__init__()
+        self.workspace = workspace
+
+
+class StudyFailed(Message):
+    """The study could not be opened (configuration or discovery error)."""
+
+    def __init__(self, error: str) -> None:
+        super().__init__()
+        self.error = error
+
+
+class NightScored(Message):
+    """The epoch detail of one participant-night is ready to draw."""
+
+    def __init__(self, participant: str, night: str, picture) -> None:
+        super().__init__()
+        self.participant, self.night, self.picture = participant, night, picture
+
+
+class ExportProgressed(Message):
+    def __init__(self, participant: str, done: int, total: int) -> None:
+        super().__init__()
+        self.participant, self.done, self.total = participant, done, total
+
+
+class ExportFinished(Message):
+    def __init__(self, written: list[Path], error: str = "") -> None:
+        super().__init__()
+        self.written, self.error = written, error

@@ -1,0 +1,140 @@
+"""Agreement: the agreement.csv statistics of one parameter and pair, and its Bland–Altman scatter.
+
+Left/right (h/l) select a point (in order of the mean of the two
+instruments); Enter opens that point's night.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.screen import Screen
+from textual.widgets import Footer, Static
+
+from ..widgets.appbar import AppBar
+from ..widgets.scatter import BlandAltmanPlot
+from .choice import choice_line
+from . import tcss
+
+
+def _f(v, digits: int = 1) -> str:
+    try:
+        v = float(v)
+    except (TypeError, ValueError):
+        return "–"
+    return f"{v:.{digits}f}" if math.isfinite(v) else "–"
+
+
+def stats_text(row: dict) -> Text:
+    """Three lines of agreement.csv for one parameter and pair."""
+    t = Text()
+    if not row:
+        return Text("no agreement row", style="dim")
+    t.append(f" n {int(row['n_nights'])} nights, {int(row['n_participants'])} participants   ")
+    t.append(f"bias {_f(row['bias'])} [{_f(row['bias_ci_low'])}, {_f(row['bias_ci_high'])}]  ", style="bold")
+    t.append(f"SD {_f(row['sd'])}\n")
+    t.append(f" limits of agreement {_f(row['loa_low'])} to {_f(row['loa_high'])}", style="bold")
+    t.append(f"   multi-night {_f(row['mn_loa_low'])} to {_f(row['mn_loa_high'])}\n")
+    t.append(f" CCC {_f(row['ccc'], 2)}  ICC {_f(row['icc'], 2)}  prop. slope {_f(row['prop_slope'], 2)}"
+             f" (p {_f(row['prop_p'], 3)})")
+    note = row.get("note") or ""
+    if isinstance(note, str) and note:
+        t.append(f"  {note}", style="yellow")
+    return t
+
+
+class AgreementScreen(Screen):
+    """Statistics and Bland–Altman scatter."""
+
+    CSS_PATH = tcss("agreement")
+    BINDINGS = [
+        Binding("left,h", "select(-1)", "Prev point", key_display="←"),
+        Binding("right,l", "select(1)", "Next point", key_display="→"),
+        Binding("enter", "open_night", "Night", priority=True),
+        Binding("p", "next_pair", "Pair"),
+        Binding("v", "next_parameter(1)", "Parameter"),
+        Binding("V", "next_parameter(-1)", "Prev parameter", show=False),
+        Binding("escape,q", "back", "Back", key_display="q"),
+    ]
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.points = None
+        self.selected = 0
+        self.version = -1
+
+    def compose(self) -> ComposeResult:
+        yield AppBar(self.app.study_name, "agreement")
+        yield Static("", id="choice")
+        yield Static("", id="stats")
+        yield BlandAltmanPlot(id="scatter")
+        yield Static("", id="point")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.fill()
+
+    def on_screen_resume(self) -> None:
+        if self.app.workspace.version != self.version:
+            self.fill()
+
+    def fill(self) -> None:
+        ws, choice = self.app.workspace, self.app.choice
+        self.version = ws.version
+        test, ref = choice.pair
+        self.query_one("#choice", Static).update(choice_line(choice, f"differences {test} − {ref}"))
+        row = ws.agreement_row(test, ref, choice.parameter)
+        self.query_one("#stats", Static).update(stats_text(row))
+        pts = ws.agreement_points(test, ref, choice.parameter)
+        self.points = pts.sort_values(["mean", "participant", "night"]).reset_index(drop=True)
+        self.selected = min(self.selected, max(len(self.points) - 1, 0))
+        self._draw(row)
+
+    def _draw(self, row: dict | None = None) -> None:
+        ws, choice = self.app.workspace, self.app.choice
+        bias, low, high = ws.limits(choice.pair_label, choice.parameter)
+        pts = self.points
+        sel = self.selected if len(pts) else None
+        self.query_one(BlandAltmanPlot).show(pts["mean"].to_numpy(float), pts["difference"].to_numpy(float),
+                                             bias, low, high, sel)
+        info = self.query_one("#point", Static)
+        if sel is None:
+            info.update("no paired nights")
+            return
+        p = pts.iloc[sel]
+        beyond = np.isfinite(low) and (p["difference"] < low or p["difference"] > high)
+        text = Text()
+        text.append(f" ◆ {p['participant']} {p['night']}", style="bold")
+        text.append(f"  mean {p['mean']:.1f}  difference {p['difference']:+.1f}")
+        if beyond:
+            text.append("  beyond the limits", style="bold red")
+        text.append(f"   point {sel + 1} of {len(pts)}", style="dim")
+        info.update(text)
+
+    def action_select(self, step: int) -> None:
+        if self.points is not None and len(self.points):
+            self.selected = (self.selected + step) % len(self.points)
+            self._draw()
+
+    def action_next_pair(self) -> None:
+        self.app.choice.next_pair()
+        self.selected = 0
+        self.fill()
+
+    def action_next_parameter(self, step: int) -> None:
+        self.app.choice.next_parameter(step)
+        self.selected = 0
+        self.fill()
+
+    def action_open_night(self) -> None:
+        if self.points is None or not len(self.points):
+            return
+        p = self.points.iloc[self.selected]
+        self.app.open_night(p["participant"], p["night"])
+
+    def action_back(self) -> None:
+        self.app.pop_screen()

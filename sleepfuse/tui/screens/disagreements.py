@@ -1,0 +1,112 @@
+"""Disagreements: every paired night ranked by how far the chosen pair disagrees on the chosen parameter.
+
+Ranked by |difference − bias| relative to the half-width of the limits of
+agreement (or by the absolute difference; ``s`` switches), with the likely
+reason when one is known (sleepfuse.fusion.disagreement). Enter opens the night.
+"""
+
+from __future__ import annotations
+
+import math
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Static
+
+from ...definitions import PARAMETERS
+from ..widgets.appbar import AppBar
+from ..widgets.numbers import fmt
+from .choice import choice_line
+from . import tcss
+
+
+class DisagreementScreen(Screen):
+    """Nights ranked by disagreement."""
+
+    CSS_PATH = tcss("disagreements")
+    BINDINGS = [
+        Binding("enter", "open_night", "Night", priority=True),
+        Binding("p", "next_pair", "Pair"),
+        Binding("v", "next_parameter(1)", "Parameter"),
+        Binding("V", "next_parameter(-1)", "Prev parameter", show=False),
+        Binding("s", "toggle_sort", "Sort"),
+        Binding("escape,q", "back", "Back", key_display="q"),
+    ]
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.ranked = None
+        self.version = -1
+
+    def compose(self) -> ComposeResult:
+        yield AppBar(self.app.study_name, "disagreements")
+        yield Static("", id="choice")
+        yield DataTable(id="ranked", cursor_type="row", zebra_stripes=True)
+        yield Static("×LoA = (diff − bias) / half the LoA width; * beyond the limits",
+                     id="ranked-note")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        table = self.query_one("#ranked", DataTable)
+        for label, width in (("#", 3), ("id", 4), ("night", 10), ("test", 6), ("ref", 6), ("diff", 7),
+                             ("×LoA", 6), ("likely reason", 24)):
+            table.add_column(label, width=width, key=label)
+        self.fill()
+        table.focus()
+
+    def on_screen_resume(self) -> None:
+        if self.app.workspace.version != self.version:
+            self.fill()
+
+    def fill(self) -> None:
+        ws, choice = self.app.workspace, self.app.choice
+        self.version = ws.version
+        test, ref = choice.pair
+        self.ranked = ws.disagreements(test, ref, choice.parameter, by=choice.by)
+        order = "|diff − bias| / LoA" if choice.by == "relative" else "|difference|"
+        self.query_one("#choice", Static).update(
+            choice_line(choice, f"ranked by {order} (s) · {len(self.ranked)} nights"))
+        unit = PARAMETERS[choice.parameter].unit
+        rows = []
+        for k, r in enumerate(self.ranked.itertuples(index=False), start=1):
+            ratio = r.loa_ratio
+            flag = bool(r.beyond_loa)
+            rows.append([
+                str(k), r.participant, r.night,
+                Text(fmt(r.test_value, unit), justify="right"), Text(fmt(r.reference_value, unit), justify="right"),
+                Text(fmt(r.difference, unit, signed=True), justify="right"),
+                Text(("–" if not math.isfinite(ratio) else f"{ratio:+.1f}") + ("*" if flag else " "),
+                     justify="right", style="bold red" if flag else ""),
+                Text(r.reason or "", style="yellow"),
+            ])
+        table = self.query_one("#ranked", DataTable)
+        table.clear()
+        table.add_rows(rows)
+
+    def action_next_pair(self) -> None:
+        self.app.choice.next_pair()
+        self.fill()
+
+    def action_next_parameter(self, step: int) -> None:
+        self.app.choice.next_parameter(step)
+        self.fill()
+
+    def action_toggle_sort(self) -> None:
+        self.app.choice.by = "absolute" if self.app.choice.by == "relative" else "relative"
+        self.fill()
+
+    def on_data_table_row_selected(self, event: DataTable.RowSelected) -> None:
+        event.stop()
+        self.action_open_night()
+
+    def action_open_night(self) -> None:
+        table = self.query_one("#ranked", DataTable)
+        if self.ranked is None or self.ranked.empty:
+            return
+        r = self.ranked.iloc[table.cursor_row]
+        self.app.open_night(r["participant"], r["night"])
+
+    def action_back(self) -> None:
+        self.app.pop_screen()

@@ -1,0 +1,1 @@
+"""Widgets of the terminal interface: app bar, night timeline, Bland–Altman scatter."""

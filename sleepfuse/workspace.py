@@ -1,0 +1,315 @@
+"""A scored study held open for the interface: night table, QC, agreement, review decisions, detail on demand.
+
+No interface code here (the terminal app imports this, never the reverse).
+``StudyLoader`` scores participant by participant so a front end can show
+rows as they come; ``Workspace`` answers the questions the screens ask
+(cell status per participant-night, a night's instruments and parameters,
+the agreement of a pair) and records review decisions through
+``sleepfuse.review``. Epoch detail (hypnograms, per-minute actigraphy) is
+kept for every participant of small studies and re-scored on demand, with a
+small cache, for big ones, so memory stays bounded.
+"""
+
+from __future__ import annotations
+
+import math
+import threading
+from collections import OrderedDict
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .config import StudyConfig, load_config
+from .definitions import PAIRS, PARAMETERS, pair_name
+from .fusion.disagreement import rank_disagreements
+from .fusion.epoch_table import epoch_rows
+from .fusion.pairs import agreement_table, paired_nights, shared_parameters
+from .pipeline import ParticipantJob, StudyResult, plan_jobs, process_participant
+from .qc import QCEntry, QCLog
+from .review import Decision, apply_decisions, effective, load_decisions, record_decision
+from .scoring.nights import SOURCE_PARAMETERS, ScoredParticipant, night_table
+
+SOURCES = ("psg", "actigraphy", "diary")
+SOURCE_LETTER = {"psg": "P", "actigraphy": "A", "diary": "D"}
+KEEP_ALL_DETAIL = 64  # studies up to this size keep every participant's epoch detail
+DETAIL_CACHE = 16  # otherwise: this many participants' detail, most recent first
+
+
+@dataclass(frozen=True)
+class NightCell:
+    """What one participant-night has: per source 'ok', 'excluded' or '' (missing); QC problems (warnings/errors)."""
+
+    status: tuple[str, str, str]
+    problems: int
+
+    def glyphs(self) -> str:
+        """Four characters, monochrome-readable: P/A/D in fixed places, '·' missing, '×' excluded, then '!' for QC."""
+        chars = [SOURCE_LETTER[s] if st == "ok" else ("×" if st == "excluded" else "·")
+                 for s, st in zip(SOURCES, self.status)]
+        return "".join(chars) + ("!" if self.problems else " ")
+
+
+@dataclass
+class ParameterLine:
+    """One parameter of one night: value per source and the pair differences, flagged beyond the limits."""
+
+    parameter: str
+    unit: str
+    values: dict[str, float]
+    differences: dict[str, float]  # pair name -> test − reference
+    beyond: dict[str, bool]  # pair name -> outside the study's limits of agreement
+
+
+class StudyLoader:
+    """Discover a study's files now; score its participants chunk by chunk later (for a progress display)."""
+
+    def __init__(self, root: str | Path, config: StudyConfig | None = None):
+        self.root = Path(root)
+        self.config = config if config is not None else load_config(self.root)
+        self.qc = QCLog()
+        if self.config.study.timezone_from_machine:
+            self.qc.info(f"study.toml gives no [study] timezone; using this machine's zone {self.config.timezone}",
+                         file="study.toml")
+        jobs, self.files = plan_jobs(self.config, self.qc)
+        self.jobs = {j.participant: j for j in jobs}
+        self.scored: list[ScoredParticipant] = []
+        self.epoch_rows: list[dict] = []
+        self.decisions = load_decisions(self.root)
+
+    @property
+    def participants(self) -> list[str]:
+        return list(self.jobs)
+
+    def score(self, participants: list[str]) -> pd.DataFrame:
+        """Score these participants; returns their night rows with review decisions applied."""
+        chunk = []
+        for pid in participants:
+            scored, entries = process_participant(self.config, self.jobs[pid])
+            local = QCLog(list(entries))
+            try:
+                self.epoch_rows += epoch_rows(self.config, scored, local)
+            except Exception as exc:  # epoch agreement is optional; never lose the participant for it
+                local.error(f"epoch-by-epoch agreement not computed: {type(exc).__name__}: {exc}", participant=pid)
+            self.qc.extend(local.entries)
+            chunk.append(scored)
+        self.scored += chunk
+        return apply_decisions(night_table(chunk), self.decisions)
+
+    def finish(self) -> "Workspace":
+        keep = len(self.scored) <= KEEP_ALL_DETAIL
+        return Workspace(self.root, self.config, self.scored, self.qc, self.epoch_rows, jobs=self.jobs,
+                         keep_detail=keep)
+
+
+class Workspace:
+    """The open study: everything the screens show, computed once and updated on each review decision."""
+
+    def __init__(self, root: Path, config: StudyConfig, scored: list[ScoredParticipant], qc: QCLog,
+                 epoch_rows: list[dict], *, jobs: dict[str, ParticipantJob] | None = None, keep_detail: bool = True):
+        self.root = Path(root)
+        self.config = config
+        self.qc = qc
+        self.epoch_rows = epoch_rows
+        self.participants = [s.participant for s in scored]
+        self._jobs = jobs or {}
+        self._lock = threading.Lock()
+        self._detail: OrderedDict[str, ScoredParticipant] = OrderedDict()
+        self._keep_all = keep_detail
+        for s in scored if keep_detail else scored[-DETAIL_CACHE:]:
+            self._detail[s.participant] = s
+        self.base_nights = night_table(scored)  # before review decisions
+        self._problems = self._count_problems(qc.entries)
+        self.refresh()
+
+    @classmethod
+    def from_result(cls, root: str | Path, result: StudyResult) -> "Workspace":
+        """Wrap an already scored study (run_study with keep_detail=True), e.g. for tests."""
+        scored = list(result.participants.values())
+        qc = QCLog(list(result.qc.entries))
+        rows = [r for s in scored for r in epoch_rows(result.config, s, QCLog())]
+        jobs, _ = plan_jobs(result.config, QCLog())
+        return cls(Path(root), result.config, scored, qc, rows, jobs={j.participant: j for j in jobs})
+
+    @classmethod
+    def load(cls, root: str | Path) -> "Workspace":
+        loader = StudyLoader(root)
+        loader.score(loader.participants)
+        return loader.finish()
+
+    # --- tables -----------------------------------------------------------------
+    def refresh(self) -> None:
+        """Re-read the review file and recompute the night table and agreement."""
+        self.version = getattr(self, "version", -1) + 1  # screens redraw when it changes
+        self.decisions = load_decisions(self.root)
+        self.nights = apply_decisions(self.base_nights, self.decisions)
+        self.agreement = agreement_table(self.nights)
+        self._index = {(p, n, s): i for i, (p, n, s) in
+                       enumerate(zip(self.nights["participant"], self.nights["night"], self.nights["source"]))} \
+            if not self.nights.empty else {}
+
+    @property
+    def name(self) -> str:
+        return self.config.study.name or self.root.name
+
+    def study_nights(self) -> list[str]:
+        """Every ISO night from the first to the last night any instrument has."""
+        if self.nights.empty:
+            return []
+        days = pd.to_datetime(self.nights["night"])
+        return [d.date().isoformat() for d in pd.date_range(days.min(), days.max(), freq="D")]
+
+    @staticmethod
+    def _count_problems(entries: list[QCEntry]) -> dict[tuple[str, str], int]:
+        out: dict[tuple[str, str], int] = {}
+        for e in entries:
+            if e.severity != "info" and e.participant and e.night:
+                out[(e.participant, e.night)] = out.get((e.participant, e.night), 0) + 1
+        return out
+
+    def cells(self, nights: pd.DataFrame | None = None) -> dict[tuple[str, str], NightCell]:
+        """(participant, night) -> NightCell for every participant-night in the (given) night table."""
+        nights = self.nights if nights is None else nights
+        return night_cells(nights, self._problems)
+
+    def row(self, participant: str, night: str, source: str) -> pd.Series | None:
+        i = self._index.get((participant, night, source))
+        return None if i is None else self.nights.iloc[i]
+
+    def participant_nights(self, participant: str) -> list[str]:
+        if self.nights.empty:
+            return []
+        return sorted(set(self.nights.loc[self.nights["participant"] == participant, "night"]))
+
+    def participant_summary(self, participant: str) -> dict:
+        """Nights per source (included / all), QC problems (warnings, errors) and review decisions."""
+        rows = self.nights[self.nights["participant"] == participant] if not self.nights.empty else self.nights
+        counts = {}
+        for s in SOURCES:
+            r = rows[rows["source"] == s]
+            counts[s] = (int(r["included"].sum()), int(len(r)))
+        problems = [e for e in self.qc.for_participant(participant) if e.severity != "info"]
+        decisions = [d for k, d in effective(self.decisions).items() if k[0] == participant]
+        return {"counts": counts, "problems": problems, "decisions": decisions}
+
+    # --- one night ----------------------------------------------------------------
+    def detail(self, participant: str) -> ScoredParticipant:
+        """The participant's epoch detail; re-scored from the files when not cached (may take a second)."""
+        with self._lock:
+            if participant in self._detail:
+                self._detail.move_to_end(participant)
+                return self._detail[participant]
+        job = self._jobs.get(participant)
+        scored = process_participant(self.config, job)[0] if job is not None else ScoredParticipant(participant)
+        with self._lock:
+            self._detail[participant] = scored
+            if not self._keep_all:
+                while len(self._detail) > DETAIL_CACHE:
+                    self._detail.popitem(last=False)
+        return scored
+
+    def limits(self, pair: str, parameter: str) -> tuple[float, float, float]:
+        """(bias, loa_low, loa_high) of agreement.csv for this pair and parameter; NaN when not computed."""
+        a = self.agreement
+        row = a[(a["pair"] == pair) & (a["parameter"] == parameter)] if not a.empty else a
+        if row.empty:
+            return math.nan, math.nan, math.nan
+        r = row.iloc[0]
+        return float(r["bias"]), float(r["loa_low"]), float(r["loa_high"])
+
+    def night_parameters(self, participant: str, night: str) -> list[ParameterLine]:
+        """Every parameter any source has that night, side by side, with pair differences flagged beyond the LoA."""
+        rows = {s: self.row(participant, night, s) for s in SOURCES}
+        lines = []
+        for p in dict.fromkeys(x for s in SOURCES for x in SOURCE_PARAMETERS[s]):
+            values = {s: float(r[p]) if r is not None and s_has(s, p) else math.nan for s, r in rows.items()}
+            if not any(np.isfinite(v) for v in values.values()):
+                continue
+            diffs, beyond = {}, {}
+            for test, ref in PAIRS:
+                name = pair_name(test, ref)
+                if p not in shared_parameters(test, ref):
+                    continue
+                both = rows[test] is not None and rows[ref] is not None and bool(rows[test]["included"]) \
+                    and bool(rows[ref]["included"])
+                d = values[test] - values[ref] if both else math.nan
+                diffs[name] = d
+                _, low, high = self.limits(name, p)
+                beyond[name] = bool(np.isfinite(d) and np.isfinite(low) and (d < low or d > high))
+            lines.append(ParameterLine(p, PARAMETERS[p].unit if p in PARAMETERS else "", values, diffs, beyond))
+        return lines
+
+    # --- study-wide views -------------------------------------------------------------
+    def disagreements(self, test: str, reference: str, parameter: str, *, by: str = "relative") -> pd.DataFrame:
+        return rank_disagreements(self.nights, test, reference, parameter, agreement=self.agreement,
+                                  epoch_rows=self.epoch_rows, by=by)
+
+    def agreement_points(self, test: str, reference: str, parameter: str) -> pd.DataFrame:
+        """Bland–Altman points: participant, night, mean of the two, difference test − reference."""
+        paired = paired_nights(self.nights, test, reference) if not self.nights.empty else pd.DataFrame()
+        if paired.empty:
+            return pd.DataFrame(columns=["participant", "night", "mean", "difference"])
+        t, r = paired[f"{parameter}_test"].to_numpy(float), paired[f"{parameter}_ref"].to_numpy(float)
+        ok = np.isfinite(t) & np.isfinite(r)
+        return pd.DataFrame({"participant": paired["participant"].to_numpy(object)[ok],
+                             "night": paired["night"].to_numpy(object)[ok],
+                             "mean": ((t + r) / 2)[ok], "difference": (t - r)[ok]})
+
+    def agreement_row(self, test: str, reference: str, parameter: str) -> dict:
+        a = self.agreement
+        row = a[(a["pair"] == pair_name(test, reference)) & (a["parameter"] == parameter)]
+        return row.iloc[0].to_dict() if not row.empty else {}
+
+    # --- review -----------------------------------------------------------------------
+    def decide(self, participant: str, night: str, source: str, decision: str, reason: str) -> Decision:
+        """Save one review decision (atomically, in the study's review file) and update the tables."""
+        d = record_decision(self.root, participant, night, source, decision, reason)
+        self.refresh()
+        return d
+
+
+def s_has(source: str, parameter: str) -> bool:
+    return parameter in SOURCE_PARAMETERS[source]
+
+
+def night_cells(nights: pd.DataFrame, problems: dict[tuple[str, str], int]) -> dict[tuple[str, str], NightCell]:
+    """Cell status of every participant-night of a night table (vectorised over rows)."""
+    out: dict[tuple[str, str], list] = {}
+    pos = {s: i for i, s in enumerate(SOURCES)}
+    if nights.empty:
+        return {}
+    for p, n, s, inc in zip(nights["participant"], nights["night"], nights["source"], nights["included"]):
+        st = out.setdefault((p, n), ["", "", ""])
+        st[pos[s]] = "ok" if inc else "excluded"
+    return {k: NightCell(tuple(v), problems.get(k, 0)) for k, v in out.items()}
+
+
+@dataclass
+class PairChoice:
+    """The pair and parameter a screen shows; cycles through PAIRS and the pair's shared parameters."""
+
+    pair_index: int = 0
+    parameter: str = "tst_min"
+    by: str = "relative"
+
+    @property
+    def pair(self) -> tuple[str, str]:
+        return PAIRS[self.pair_index]
+
+    @property
+    def pair_label(self) -> str:
+        return pair_name(*self.pair)
+
+    def parameters(self) -> list[str]:
+        return shared_parameters(*self.pair)
+
+    def next_pair(self) -> None:
+        self.pair_index = (self.pair_index + 1) % len(PAIRS)
+        if self.parameter not in self.parameters():
+            self.parameter = self.parameters()[0]
+
+    def next_parameter(self, step: int = 1) -> None:
+        params = self.parameters()
+        i = params.index(self.parameter) if self.parameter in params else -1
+        self.parameter = params[(i + step) % len(params)]
