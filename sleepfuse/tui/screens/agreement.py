@@ -52,11 +52,11 @@ class AgreementScreen(Screen):
 
     CSS_PATH = tcss("agreement")
     BINDINGS = [
-        Binding("left,h", "select(-1)", "Prev point", key_display="←"),
-        Binding("right,l", "select(1)", "Next point", key_display="→"),
-        Binding("enter", "open_night", "Night", priority=True),
-        Binding("p", "next_pair", "Pair"),
-        Binding("v", "next_parameter(1)", "Parameter"),
+        Binding("left,h", "select(-1)", "Prev point", key_display="←", tooltip="select the previous point (by mean)"),
+        Binding("right,l", "select(1)", "Next point", key_display="→", tooltip="select the next point (by mean)"),
+        Binding("enter", "open_night", "Night", priority=True, tooltip="open the night of the selected point"),
+        Binding("p", "next_pair", "Pair", tooltip="next instrument pair"),
+        Binding("v", "next_parameter(1)", "Parameter", tooltip="next sleep parameter"),
         Binding("V", "next_parameter(-1)", "Prev parameter", show=False),
         Binding("escape,q", "back", "Back", key_display="q"),
     ]

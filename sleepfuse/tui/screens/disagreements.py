@@ -27,11 +27,11 @@ class DisagreementScreen(Screen):
 
     CSS_PATH = tcss("disagreements")
     BINDINGS = [
-        Binding("enter", "open_night", "Night", priority=True),
-        Binding("p", "next_pair", "Pair"),
-        Binding("v", "next_parameter(1)", "Parameter"),
+        Binding("enter", "open_night", "Night", priority=True, tooltip="open the night view of the highlighted row"),
+        Binding("p", "next_pair", "Pair", tooltip="next instrument pair (actigraphy−PSG, diary−PSG, diary−actigraphy)"),
+        Binding("v", "next_parameter(1)", "Parameter", tooltip="next sleep parameter"),
         Binding("V", "next_parameter(-1)", "Prev parameter", show=False),
-        Binding("s", "toggle_sort", "Sort"),
+        Binding("s", "toggle_sort", "Sort", tooltip="rank by difference relative to the limits of agreement, or absolute"),
         Binding("escape,q", "back", "Back", key_display="q"),
     ]
 

@@ -36,7 +36,7 @@ def help_text(sections: list[tuple[str, list[Binding], list[tuple[str, str]]]]) 
         t.append(f"{title}\n", style="bold underline")
         for b in bindings:
             t.append(f"  {_key(b):<14}", style="bold")
-            t.append(f"{b.description}\n")
+            t.append(f"{b.description}" + (f" — {b.tooltip}" if b.tooltip else "") + "\n")
         for key, what in extra:
             t.append(f"  {key:<14}", style="bold")
             t.append(f"{what}\n")

@@ -34,12 +34,12 @@ class NightScreen(Screen):
 
     CSS_PATH = tcss("night")
     BINDINGS = [
-        Binding("left_square_bracket", "step_night(-1)", "Night −1", key_display="["),
-        Binding("right_square_bracket", "step_night(1)", "Night +1", key_display="]"),
-        Binding("left_curly_bracket", "step_participant(-1)", "Id −1", key_display="{"),
-        Binding("right_curly_bracket", "step_participant(1)", "Id +1", key_display="}"),
-        Binding("x", "exclude", "Excl"),
-        Binding("i", "include", "Incl"),
+        Binding("left_square_bracket", "step_night(-1)", "Night −1", key_display="[", tooltip="previous night of this participant"),
+        Binding("right_square_bracket", "step_night(1)", "Night +1", key_display="]", tooltip="next night of this participant"),
+        Binding("left_curly_bracket", "step_participant(-1)", "Id −1", key_display="{", tooltip="previous participant, same night"),
+        Binding("right_curly_bracket", "step_participant(1)", "Id +1", key_display="}", tooltip="next participant, same night"),
+        Binding("x", "exclude", "Excl", tooltip="exclude this night for one instrument, with a reason"),
+        Binding("i", "include", "Incl", tooltip="re-include an excluded night for one instrument"),
         Binding("escape,q", "back", "Back", key_display="q"),
     ]
 

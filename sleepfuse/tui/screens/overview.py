@@ -54,13 +54,13 @@ class OverviewScreen(Screen):
 
     CSS_PATH = tcss("overview")
     BINDINGS = [
-        Binding("enter", "open_night", "Night", priority=True),
-        Binding("d", "app.disagreements", "Disagree"),
-        Binding("a", "app.agreement", "Agree"),
-        Binding("x", "exclude", "Excl"),
-        Binding("i", "include", "Incl"),
-        Binding("e", "app.export", "Export"),
-        Binding("q", "app.quit", "Quit"),
+        Binding("enter", "open_night", "Night", priority=True, tooltip="open the night view of the highlighted participant and night"),
+        Binding("d", "app.disagreements", "Disagree", tooltip="nights ranked by how far two instruments disagree"),
+        Binding("a", "app.agreement", "Agree", tooltip="Bland–Altman agreement of a pair of instruments on one parameter"),
+        Binding("x", "exclude", "Excl", tooltip="exclude this night for one instrument, with a reason"),
+        Binding("i", "include", "Incl", tooltip="re-include an excluded night for one instrument"),
+        Binding("e", "app.export", "Export", tooltip="write every output table (same as sleepfuse batch)"),
+        Binding("q", "app.quit", "Quit", tooltip="leave sleepfuse"),
         Binding("h", "move('left')", "Cursor left", show=False),
         Binding("j", "move('down')", "Cursor down", show=False),
         Binding("k", "move('up')", "Cursor up", show=False),
