@@ -5,6 +5,11 @@ of worker processes), and only its light results (night rows, rhythm, epoch
 agreement rows, QC entries, input checksums) come back, so memory does not
 grow with the study beyond the tables themselves. Every file is written
 atomically; provenance.json is written last.
+
+Scored participants are kept in the study's incremental cache
+(``sleepfuse.cache``): a later run recomputes only participants whose files,
+configuration or sleepfuse version changed. ``scheduler`` sends the
+per-participant work to a Dask cluster (``sleepfuse.distributed``).
 """
 
 from __future__ import annotations
@@ -15,7 +20,7 @@ import math
 import os
 import platform
 import sys
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures import ProcessPoolExecutor, ThreadPoolExecutor, as_completed
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable
@@ -60,6 +65,8 @@ class BatchOptions:
     workers: int = 1
     zscore: bool = False
     min_nights: int = 1
+    cache: bool = True  # use and update <study>/.sleepfuse-cache/ (False: --no-cache, full run)
+    scheduler: str | None = None  # Dask scheduler address, "local" for a LocalCluster, None: no Dask
 
 
 @dataclass
@@ -69,10 +76,16 @@ class BatchResult:
     written: list[Path]
     n_participants: int
     n_scored_nights: int
+    n_recomputed: int = 0
+    n_from_cache: int = 0
 
 
-def run_participant(config: StudyConfig, job: ParticipantJob) -> ParticipantOutcome:
-    """Read, score and compare the instruments of one participant (runs in a worker)."""
+def run_participant(config: StudyConfig, job: ParticipantJob, inputs: list[dict] | None = None) -> ParticipantOutcome:
+    """Read, score and compare the instruments of one participant (runs in a worker).
+
+    ``inputs`` are the files' provenance records if already made (checksums
+    are computed once, by the caller); otherwise they are made here.
+    """
     scored, entries = process_participant(config, job)
     qc = QCLog(list(entries))
     try:
@@ -80,11 +93,20 @@ def run_participant(config: StudyConfig, job: ParticipantJob) -> ParticipantOutc
     except Exception as exc:  # epoch agreement is optional; never lose the participant for it
         qc.error(f"epoch-by-epoch agreement not computed: {type(exc).__name__}: {exc}", participant=job.participant)
         erows = []
-    inputs = []
-    for source, paths in job.files.items():
-        for p in paths:
-            inputs.append(_input_record(config, p, source))
-    return ParticipantOutcome(job.participant, scored.rows, scored.rhythm, erows, qc.entries, inputs)
+    if inputs is None:
+        inputs = job_inputs(config, job)
+    return ParticipantOutcome(job.participant, scored.rows, scored.rhythm, erows, qc.entries, list(inputs))
+
+
+def job_inputs(config: StudyConfig, job: ParticipantJob) -> list[dict]:
+    """Provenance record (relative path, source, SHA-256, size, time) of each of a job's files."""
+    return [_input_record(config, p, source) for source, paths in job.files.items() for p in paths]
+
+
+def failed_outcome(job: ParticipantJob, exc: BaseException, inputs: list[dict] | None = None) -> ParticipantOutcome:
+    """A participant whose worker crashed: one QC error, no rows (never cached)."""
+    entry = QCEntry("", job.participant, "", "error", f"participant not processed: {type(exc).__name__}: {exc}")
+    return ParticipantOutcome(job.participant, [], {}, [], [entry], list(inputs or []))
 
 
 def _input_record(config: StudyConfig, path: Path, source: str) -> dict:
@@ -110,29 +132,58 @@ def _rel(config: StudyConfig, path: Path) -> str:
 
 
 def _run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
-              progress: Callable[[str, int, int], None] | None) -> list[ParticipantOutcome]:
+              progress: Callable[[str, int, int], None] | None, *,
+              inputs: list[list[dict]] | None = None, scheduler: str | None = None,
+              on_done: Callable[[int, ParticipantOutcome], None] | None = None,
+              done_before: int = 0, total: int | None = None) -> list[ParticipantOutcome]:
+    """Run ``run_participant`` for every job: here, in a process pool or on a Dask cluster.
+
+    Outcomes come back sorted by participant whichever way they ran, so the
+    tables are the same. ``on_done(index, outcome)`` is called as each one
+    arrives (the cache stores it then); progress counts from ``done_before``.
+    """
     outcomes: list[ParticipantOutcome] = []
     n = len(jobs)
-    if workers <= 1 or n <= 1:
-        for i, job in enumerate(jobs):
-            if progress:
-                progress(job.participant, i, n)
-            outcomes.append(run_participant(config, job))
+    total = n + done_before if total is None else total
+    inputs = inputs if inputs is not None else [None] * n  # type: ignore[list-item]
+
+    def finish(k: int, outcome: ParticipantOutcome, i: int) -> None:
+        outcomes.append(outcome)
+        if on_done:
+            on_done(k, outcome)
         if progress:
-            progress("", n, n)
-        return outcomes
-    with ProcessPoolExecutor(max_workers=workers) as pool:
-        futures = {pool.submit(run_participant, config, job): job for job in jobs}
-        for i, fut in enumerate(as_completed(futures)):
-            job = futures[fut]
-            try:
-                outcomes.append(fut.result())
-            except Exception as exc:  # a crashed worker loses one participant, not the study
-                entry = QCEntry("", job.participant, "", "error", f"participant not processed: {type(exc).__name__}: {exc}")
-                outcomes.append(ParticipantOutcome(job.participant, [], {}, [], [entry]))
+            progress(jobs[k].participant, done_before + i, total)
+
+    if scheduler:
+        from .distributed import run_jobs_on_dask
+
+        run_jobs_on_dask(config, jobs, inputs, scheduler, workers, finish)
+    elif workers <= 1 or n <= 1:
+        for k, job in enumerate(jobs):
             if progress:
-                progress(job.participant, i + 1, n)
+                progress(job.participant, done_before + k, total)
+            finish(k, run_participant(config, job, inputs[k]), k + 1)
+    else:
+        with ProcessPoolExecutor(max_workers=min(workers, n)) as pool:
+            futures = {pool.submit(run_participant, config, job, inputs[k]): k for k, job in enumerate(jobs)}
+            for i, fut in enumerate(as_completed(futures)):
+                k = futures[fut]
+                try:
+                    outcome = fut.result()
+                except Exception as exc:  # a crashed worker loses one participant, not the study
+                    outcome = failed_outcome(jobs[k], exc, inputs[k])
+                finish(k, outcome, i + 1)
+    if progress:
+        progress("", done_before + n, total)
     return sorted(outcomes, key=lambda o: o.participant)
+
+
+def hash_inputs(config: StudyConfig, jobs: list[ParticipantJob], workers: int = 2) -> list[list[dict]]:
+    """Provenance records (with SHA-256) of every job's files, hashed on a few threads (hashlib frees the GIL)."""
+    if len(jobs) <= 1:
+        return [job_inputs(config, j) for j in jobs]
+    with ThreadPoolExecutor(max_workers=max(2, min(8, workers))) as pool:
+        return list(pool.map(lambda j: job_inputs(config, j), jobs))
 
 
 def build_tables(config: StudyConfig, outcomes: list[ParticipantOutcome], qc: QCLog, options: BatchOptions,
@@ -195,6 +246,7 @@ def write_table(df: pd.DataFrame, path_base: Path, fmt: str) -> Path:
 
 def write_plots(tables: dict[str, pd.DataFrame], out: Path) -> list[Path]:
     """One Bland–Altman figure (PNG + SVG) per parameter and pair into out/plots/."""
+    from .definitions import label_of
     from .fusion.plots import bland_altman_figure, save_figure
 
     nights = tables["nights"]
@@ -207,7 +259,7 @@ def write_plots(tables: dict[str, pd.DataFrame], out: Path) -> list[Path]:
             t = r = ids = np.array([], dtype=float)
         else:
             t, r, ids = paired[f"{param}_test"].to_numpy(float), paired[f"{param}_ref"].to_numpy(float), paired["participant"].to_numpy(object)
-        fig = bland_altman_figure(t, r, stats.to_dict(), parameter=param, pair=stats["pair"], unit=stats["unit"], participant=ids)
+        fig = bland_altman_figure(t, r, stats.to_dict(), parameter=label_of(param), pair=stats["pair"], unit=stats["unit"], participant=ids)
         written += save_figure(fig, out / "plots" / f"{stats['pair']}_{param}")
     return written
 
@@ -230,7 +282,9 @@ def run_batch(
         qc.info(f"study.toml gives no [study] timezone; using this machine's zone {config.timezone}", file="study.toml")
     decisions = load_decisions(study)
     jobs, files = plan_jobs(config, qc)
-    outcomes = _run_jobs(config, jobs, options.workers, progress)
+    from .cache import run_cached
+
+    outcomes, cache_report = run_cached(config, jobs, options, qc, progress)
     tables = build_tables(config, outcomes, qc, options, decisions)
     inputs = [i for o in outcomes for i in o.inputs]
     seen = {i["file"] for i in inputs}
@@ -254,13 +308,17 @@ def run_batch(
         "configuration": config.to_dict(),
         "algorithm": algorithm_provenance(config),
         "options": {"format": options.format, "plots": options.plots, "workers": options.workers,
-                    "zscore": options.zscore, "min_nights": options.min_nights},
+                    "zscore": options.zscore, "min_nights": options.min_nights, "cache": options.cache,
+                    "scheduler": options.scheduler},
+        "cache": vars(cache_report),
         "review_decisions": {"file": REVIEW_FILE if decisions else None,
                              "decisions": [vars(d) for d in decisions]},
         "inputs": sorted(inputs, key=lambda i: i["file"]),
         "outputs": [p.name for p in written],
         "counts": {
             "participants": len(outcomes),
+            "participants_recomputed": cache_report.recomputed,
+            "participants_from_cache": cache_report.from_cache,
             "nights": int(len(nights)),
             "included_nights": int(nights["included"].sum()) if not nights.empty else 0,
             "qc_errors": int(sum(1 for e in qc if e.severity == "error")),
@@ -271,7 +329,8 @@ def run_batch(
     write_text(prov_path, json.dumps(provenance, indent=2, default=_json_default, allow_nan=False) + "\n")
     written.append(prov_path)
     scored = int(nights["included"].sum()) if not nights.empty else 0
-    return BatchResult(tables, provenance, written, len(outcomes), scored)
+    return BatchResult(tables, provenance, written, len(outcomes), scored, cache_report.recomputed,
+                       cache_report.from_cache)
 
 
 def _library_versions() -> dict[str, str]:

@@ -26,6 +26,12 @@ def register(sub) -> None:
     p.set_defaults(func=run_score)
     register_batch(sub)
 
+    from .explore.cli import add_explore_parser
+    from .tui.cli import add_open_parser
+
+    add_explore_parser(sub)
+    add_open_parser(sub)
+
 
 def run_score(args: argparse.Namespace) -> int:
     from .atomic import write_text
@@ -66,6 +72,13 @@ def register_batch(sub) -> None:
     p.add_argument("--zscore", action="store_true", help="standardise every matrix feature over participants")
     p.add_argument("--min-nights", type=_positive_int, default=1, metavar="N",
                    help="fewest included nights for a source's mean and SD in the matrix (default: 1)")
+    p.add_argument("--no-cache", dest="cache", action="store_false",
+                   help="score every participant afresh; neither read nor update STUDY/.sleepfuse-cache/ "
+                        "(by default only participants whose files or settings changed are recomputed)")
+    p.add_argument("--scheduler", metavar="ADDRESS", default=None,
+                   help="run the per-participant work on a Dask cluster: a scheduler address such as "
+                        "tcp://head:8786, or 'local' to start a local cluster of --workers processes "
+                        "(needs: pip install 'sleepfuse[cluster]')")
     p.set_defaults(func=run_batch_command)
 
 
@@ -83,16 +96,23 @@ def run_batch_command(args: argparse.Namespace) -> int:
     from .batch import BatchOptions, run_batch
     from .progress import participant_progress
 
+    from .distributed import DaskUnavailable
+
     options = BatchOptions(out=args.out, format=args.format, plots=args.plots, workers=args.workers,
-                           zscore=args.zscore, min_nights=args.min_nights)
-    with participant_progress() as update:
-        result = run_batch(args.study, options, progress=update, argv=sys.argv)
+                           zscore=args.zscore, min_nights=args.min_nights, cache=args.cache,
+                           scheduler=args.scheduler)
+    try:
+        with participant_progress() as update:
+            result = run_batch(args.study, options, progress=update, argv=sys.argv)
+    except DaskUnavailable as exc:
+        print(f"sleepfuse: {exc}", file=sys.stderr)
+        return 2
     qc = result.tables["qc"]
     for _, e in qc[qc["severity"] != "info"].iterrows():
         where = " ".join(str(x) for x in (e["participant"], e["night"], e["file"]) if x)
         print(f"{e['severity'].upper():7s} {where}: {e['message']}", file=sys.stderr)
-    print(f"{result.n_participants} participants, {result.n_scored_nights} included nights; "
-          f"wrote {len(result.written)} files to {args.out}", file=sys.stderr)
+    print(f"{result.n_participants} participants ({result.n_recomputed} computed, {result.n_from_cache} from cache), "
+          f"{result.n_scored_nights} included nights; wrote {len(result.written)} files to {args.out}", file=sys.stderr)
     if result.n_scored_nights == 0:
         print("sleepfuse: nothing could be processed; see qc in the output folder", file=sys.stderr)
         return 1

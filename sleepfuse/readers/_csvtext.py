@@ -43,23 +43,97 @@ class CsvTable:
 
 def read_text(path: Path) -> str:
     """The file's text: UTF-8, optional byte-order mark; anything else is a ReadError."""
+    raw = read_raw(path)
+    return raw.decode("ascii") if raw.isascii() else raw.decode("utf-8")
+
+
+def read_raw(path: Path) -> bytes:
+    """The file's bytes without a byte-order mark, checked to be UTF-8 text (else a ReadError)."""
     try:
         raw = path.read_bytes()
     except FileNotFoundError:
         raise ReadError(path, "file not found") from None
     except OSError as exc:
         raise ReadError(path, f"cannot open the file ({exc.strerror or exc})") from None
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise ReadError(
-            path,
-            f"not UTF-8 text (byte 0x{raw[exc.start]:02x} at offset {exc.start}); "
-            "save the file as UTF-8 CSV",
-        ) from None
-    if "\x00" in text:
+    bom = raw.startswith(b"\xef\xbb\xbf")
+    if not raw.isascii():  # plain ASCII (the usual export) is UTF-8 already: no need to decode it here
+        try:
+            raw[3 if bom else 0:].decode("utf-8")
+        except UnicodeDecodeError as exc:
+            start = exc.start + (3 if bom else 0)  # offset in the file, byte-order mark included
+            raise ReadError(
+                path,
+                f"not UTF-8 text (byte 0x{raw[start]:02x} at offset {start}); "
+                "save the file as UTF-8 CSV",
+            ) from None
+    if b"\x00" in raw:
         raise ReadError(path, "the file holds NUL bytes; it is not a text CSV file")
-    return text
+    return raw[3:] if bom else raw
+
+
+def read_fast_columns(raw: bytes, wanted: dict[str, object],
+                      optional: dict[str, object] | None = None) -> tuple[list[str], dict[str, np.ndarray]] | None:
+    """Typed columns of a plain CSV in one pass of pyarrow's C++ reader, or None if the file is not plain.
+
+    ``raw`` is the file's bytes from ``read_raw``. Plain: header on line 1, no
+    quotes, no blank lines, no lone carriage returns, every row as wide as the
+    header and every wanted cell converting to its type (``wanted``: header
+    name -> pyarrow type; ``optional`` likewise, read when the header has
+    them). Anything else returns None and the caller takes the exact path,
+    which reports each problem by line. Row i of the result is file line i + 2.
+    """
+    if not raw or b'"' in raw or raw[:1] in (b"\r", b"\n", b" ", b"\t", b",", b";"):
+        return None
+    if b"\n\n" in raw or b"\n\r\n" in raw or raw.count(b"\r") != raw.count(b"\r\n"):
+        return None  # blank lines or old-Mac line ends: the exact path keeps their line numbers
+    end = raw.find(b"\n")
+    header_line = (raw if end < 0 else raw[:end]).decode("utf-8").rstrip("\r")
+    try:
+        import pyarrow as pa
+        import pyarrow.csv as pacsv
+    except ImportError:  # pragma: no cover - pyarrow is a dependency
+        return None
+    delimiter = _sniff_delimiter(header_line)
+    header = [h.strip() for h in header_line.split(delimiter)]
+    index = {}
+    for name in wanted:
+        j = find_column(header, name)
+        if j is None:
+            return None
+        index[name] = j
+    wanted = dict(wanted)
+    for name, typ in (optional or {}).items():
+        j = find_column(header, name)
+        if j is not None:
+            index[name] = j
+            wanted[name] = typ
+    if len(set(index.values())) != len(index):
+        return None  # one column named for two roles: the exact path handles it
+    names = [f"c{j}" for j in range(len(header))]
+    try:
+        table = pacsv.read_csv(
+            pa.py_buffer(raw),
+            read_options=pacsv.ReadOptions(column_names=names, skip_rows=1, use_threads=False,
+                                           block_size=max(1 << 20, len(raw) + 1)),
+            parse_options=pacsv.ParseOptions(delimiter=delimiter, quote_char=False, ignore_empty_lines=False,
+                                             newlines_in_values=False),
+            convert_options=pacsv.ConvertOptions(
+                include_columns=sorted({names[j] for j in index.values()}),
+                column_types={names[index[n]]: t for n, t in wanted.items()},
+                strings_can_be_null=False, quoted_strings_can_be_null=False,
+            ),
+        )
+    except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError, ValueError, OverflowError):
+        return None
+    if table.num_rows == 0:
+        return None
+    out = {}
+    for name in wanted:
+        col = table.column(names[index[name]])
+        if col.null_count:
+            return None
+        out[name] = col.to_numpy()
+    return header, out
 
 
 def _sniff_delimiter(header_line: str) -> str:
@@ -90,6 +164,10 @@ def read_table(path: Path) -> CsvTable:
 def _read_fast(body: str, delimiter: str, offset: int) -> CsvTable | None:
     """pandas C parser; None if the file needs the exact (csv-module) path."""
     header = body.split("\n", 1)[0].rstrip("\r").split(delimiter)
+    if len(body) <= 65536:  # a diary-sized file: splitting in Python is faster than starting the C parser
+        table = _split_small(body, delimiter, header, offset)
+        if table is not None:
+            return table
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("error", pd.errors.ParserWarning)  # pandas drops extra fields with only a warning
@@ -116,6 +194,27 @@ def _read_fast(body: str, delimiter: str, offset: int) -> CsvTable | None:
     df.columns = range(df.shape[1])
     lines = np.arange(len(df), dtype=np.int64) + 2 + offset
     return CsvTable([h.strip() for h in header], df.astype(str), lines, delimiter)
+
+
+def _split_small(body: str, delimiter: str, header: list[str], offset: int) -> CsvTable | None:
+    """The C parser's table for a small unquoted file whose rows all have the header's width, else None."""
+    lines = body.split("\n")
+    if lines and lines[-1] == "":
+        lines.pop()
+    width = len(header)
+    rows = []
+    for line in lines[1:]:
+        if line.endswith("\r"):
+            line = line[:-1]
+        fields = line.split(delimiter)
+        if len(fields) != width:
+            return None  # blank or ragged rows: the C parser's (then the exact path's) rules apply
+        rows.append(fields)
+    if not rows:
+        return None
+    df = pd.DataFrame(rows, columns=range(width), dtype=str)
+    lines_no = np.arange(len(rows), dtype=np.int64) + 2 + offset
+    return CsvTable([h.strip() for h in header], df, lines_no, delimiter)
 
 
 def _read_exact(path: Path, body: str, delimiter: str, offset: int) -> CsvTable:
@@ -181,6 +280,9 @@ def is_blank_row(cells: pd.DataFrame) -> np.ndarray:
     """True for rows whose every cell is empty or whitespace (blank lines)."""
     if cells.shape[1] == 0:
         return np.ones(len(cells), dtype=bool)
+    if len(cells) <= 2000:  # a diary-sized table: plain Python beats a pandas call per column
+        return np.fromiter((not "".join(row).strip() for row in cells.itertuples(index=False, name=None)),
+                           dtype=bool, count=len(cells))
     blank = np.ones(len(cells), dtype=bool)
     for j in cells.columns:
         blank &= (cells[j].str.strip() == "").to_numpy()
@@ -286,6 +388,33 @@ def _one_datetime(value: str, utc: bool):
     return ts
 
 
+_HALF_HOUR_US = _HOUR_US // 2
+
+
+def _steady_offset_utc(wall: np.ndarray, tz: str) -> np.ndarray | None:
+    """UTC µs of wall times when one UTC offset holds over their whole span, else None.
+
+    The zone's offset is looked up every 30 min of wall time from just before
+    the first to just after the last time; no change and no skipped or repeated
+    sample means no wall time in the span is skipped or repeated (zones change
+    offset at most once within hours), so wall − offset is the instant.
+    """
+    if wall.size == 0:
+        return None
+    w = wall.astype("datetime64[us]").astype(np.int64)
+    lo, hi = int(w.min()), int(w.max())
+    lo -= lo % _HALF_HOUR_US + _HALF_HOUR_US
+    samples = np.arange(lo, hi + 2 * _HOUR_US, _HALF_HOUR_US, dtype=np.int64)
+    loc = pd.DatetimeIndex(samples.astype("datetime64[us]")).tz_localize(tz, ambiguous="NaT", nonexistent="NaT")
+    utc = loc.as_unit("us").asi8
+    if (utc == np.iinfo(np.int64).min).any():
+        return None
+    offsets = samples - utc
+    if not (offsets == offsets[0]).all():
+        return None
+    return w - offsets[0]
+
+
 def _localize_wall(wall: np.ndarray, lines: np.ndarray, tz: str) -> tuple[np.ndarray, np.ndarray, list[Problem]]:
     """Wall-clock datetime64[us] in ``tz`` to UTC µs, resolving DST by file order.
 
@@ -297,6 +426,12 @@ def _localize_wall(wall: np.ndarray, lines: np.ndarray, tz: str) -> tuple[np.nda
     problems: list[Problem] = []
     idx = pd.DatetimeIndex(wall)
     n = len(idx)
+    steady = _steady_offset_utc(wall, tz)
+    if steady is not None:  # the common case: no DST change (or other offset change) within the file
+        return steady, np.ones(n, dtype=bool), problems
+    plain = idx.tz_localize(tz, ambiguous="NaT", nonexistent="NaT").as_unit("us").asi8
+    if not (plain == np.iinfo(np.int64).min).any():  # a change, but no wall time repeated or skipped
+        return plain.copy(), np.ones(n, dtype=bool), problems
     a = idx.tz_localize(tz, ambiguous=np.ones(n, dtype=bool), nonexistent="NaT").as_unit("us")
     b = idx.tz_localize(tz, ambiguous=np.zeros(n, dtype=bool), nonexistent="NaT").as_unit("us")
     ai = a.asi8.copy()

@@ -19,17 +19,21 @@ from ..records import ActigraphyRecord, Problem
 from ..timeutil import zone
 from ._csvtext import (
     MAX_DETAILED,
+    _localize_wall,
     find_column,
-    parse_instants,
     is_blank_row,
     line_phrase,
     missing_column_message,
+    parse_instants,
     ragged_problems,
+    read_fast_columns,
+    read_raw,
     read_table,
 )
 
 ACTIGRAPHY_DEFAULT_COLUMNS = {"timestamp": "timestamp", "counts": "counts", "off_wrist": "off_wrist", "marker": "marker"}
 ALLOWED_EPOCHS_S = (15, 30, 60)
+FAST_PATH = True  # plain files through pyarrow's reader; False forces the exact path (tests compare both)
 MAX_SPAN_DAYS = 400  # longer than any wrist recording: a clock error, not data
 _US = 1_000_000  # microseconds per second; instants are int64 µs since the epoch (UTC)
 
@@ -47,9 +51,115 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> 
         raise ReadError(path, str(exc)) from None
     names = dict(ACTIGRAPHY_DEFAULT_COLUMNS)
     names.update(columns or {})
+    raw = read_raw(path)
+    fast = _read_plain(raw, names, tz) if FAST_PATH else None
+    if fast is not None:
+        header, instants, lines_ok, values, local_problems = fast
+        problems = _unmapped_optional(header, names, columns) + local_problems
+        rows = None
+    else:
+        instants, lines_ok, rows, col, problems = _read_exact_rows(path, names, columns, tz)
+
+    keep, outliers = _drop_isolated_outliers(instants, lines_ok)
+    problems += outliers
+    if keep is not None:
+        instants, lines_ok = instants[keep], lines_ok[keep]
+        if rows is not None:
+            rows = rows.iloc[keep]
+        else:
+            values = {k: v[keep] for k, v in values.items()}
+    epoch_s = _infer_epoch(path, instants)
+    span_days = (instants.max() - instants[0]) / (86400 * _US)
+    if span_days > MAX_SPAN_DAYS:
+        raise ReadError(
+            path,
+            f"timestamps span {span_days:.0f} days (line {lines_ok[0]} to line {lines_ok[int(np.argmax(instants))]}); "
+            f"more than {MAX_SPAN_DAYS} days means a wrong device clock; fix the timestamps",
+        )
+
+    slots, first_of_slot, grid_problems = _place_on_grid(instants, lines_ok, epoch_s, tz)
+    problems += grid_problems
+    n = int(slots.max()) + 1
+    start = _local(instants[0], tz)
+    place = slots[first_of_slot]
+
+    if rows is None:  # plain file: every cell already checked
+        counts_row = values["counts"]
+    else:
+        counts_row, count_problems = _parse_counts(rows[col["counts"]], lines_ok, instants, tz)
+        problems += count_problems
+    counts = np.full(n, np.nan)
+    counts[place] = counts_row[first_of_slot]
+
+    flags_out: dict[str, np.ndarray | None] = {"off_wrist": None, "marker": None}
+    for key in flags_out:
+        if rows is None:
+            if key not in values:
+                continue
+            flags = values[key].astype(bool)
+        else:
+            if col[key] is None:
+                continue
+            flags, flag_problems = _parse_flags(rows[col[key]], lines_ok, instants, tz, key, blank_ok=key == "marker")
+            problems += flag_problems
+        arr = np.zeros(n, dtype=bool)
+        arr[place] = flags[first_of_slot]
+        flags_out[key] = arr
+    off_wrist, marker = flags_out["off_wrist"], flags_out["marker"]
+
+    return ActigraphyRecord(
+        path=path, start=start, epoch_s=epoch_s, counts=counts, off_wrist=off_wrist, marker=marker, problems=problems
+    )
+
+
+def _read_plain(raw: bytes, names: dict[str, str], tz: str):
+    """The common file, fast: plain CSV, wall-clock ISO timestamps, numeric counts, 0/1 flags.
+
+    Returns (header, instants, lines, values, problems), or None whenever
+    anything is unusual (an offset, a bad or missing value, a quote, a ragged
+    row...): the exact path then reads the file and reports every problem by
+    line. Both paths give the same record for a plain file
+    (tests/test_readers_actigraphy.py checks this).
+    """
+    import pyarrow as pa
+
+    got = read_fast_columns(
+        raw, {names["timestamp"]: pa.timestamp("us"), names["counts"]: pa.float64()},
+        {names["off_wrist"]: pa.string(), names["marker"]: pa.string()},
+    )
+    if got is None:
+        return None
+    header, cols = got
+    counts = cols[names["counts"]].astype(np.float64, copy=False)
+    if not (np.isfinite(counts).all() and (counts >= 0).all()):
+        return None
+    values = {"counts": counts}
+    for k in ("off_wrist", "marker"):
+        if names[k] in cols:
+            text = cols[names[k]].astype(str)
+            ones = text == "1"
+            if not (ones | (text == "0")).all():  # "true", " 1", "00", blanks...: the exact path's rules
+                return None
+            values[k] = ones
+    wall = cols[names["timestamp"]].astype("datetime64[us]")
+    lines = np.arange(wall.size, dtype=np.int64) + 2
+    utc, _, problems = _localize_wall(wall, lines, tz)
+    return header, utc, lines, values, problems
+
+
+def _unmapped_optional(header: list[str], names: dict[str, str], columns: dict[str, str] | None) -> list[Problem]:
+    """A warning for an off_wrist/marker column named in study.toml but absent from the file."""
+    return [
+        Problem("warning", f"column {names[key]!r} (for {key}, set in study.toml) is not in the file; {key} ignored")
+        for key in ("off_wrist", "marker")
+        if columns and key in columns and find_column(header, names[key]) is None
+    ]
+
+
+def _read_exact_rows(path: Path, names: dict[str, str], columns: dict[str, str] | None, tz: str):
+    """The careful path: every cell as text, each problem reported with its file line."""
     table = read_table(path)
     problems: list[Problem] = ragged_problems(table)
-
     col: dict[str, int | None] = {}
     for key in ("timestamp", "counts"):
         col[key] = find_column(table.header, names[key])
@@ -57,11 +167,7 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> 
             raise ReadError(path, missing_column_message(key, names[key], table.header, "actigraphy"))
     for key in ("off_wrist", "marker"):
         col[key] = find_column(table.header, names[key])
-        if col[key] is None and columns and key in columns:
-            problems.append(
-                Problem("warning", f"column {names[key]!r} (for {key}, set in study.toml) is not in the file; {key} ignored")
-            )
-
+    problems += _unmapped_optional(table.header, names, columns)
     filled = ~is_blank_row(table.cells)
     cells = table.cells[filled]
     lines = table.lines[filled]
@@ -79,46 +185,7 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> 
             f"(line {lines[0]}: {example[:40]!r}); use ISO 8601 such as 2026-03-08T23:15:00",
         )
     keep = np.flatnonzero(ok)
-    instants = instants[keep]
-    lines_ok = lines[keep]
-    rows = cells.iloc[keep]
-
-    instants, lines_ok, rows, outliers = _drop_isolated_outliers(instants, lines_ok, rows)
-    problems += outliers
-    epoch_s = _infer_epoch(path, instants)
-    span_days = (instants.max() - instants[0]) / (86400 * _US)
-    if span_days > MAX_SPAN_DAYS:
-        raise ReadError(
-            path,
-            f"timestamps span {span_days:.0f} days (line {lines_ok[0]} to line {lines_ok[int(np.argmax(instants))]}); "
-            f"more than {MAX_SPAN_DAYS} days means a wrong device clock; fix the timestamps",
-        )
-
-    slots, first_of_slot, grid_problems = _place_on_grid(instants, lines_ok, epoch_s, tz)
-    problems += grid_problems
-    n = int(slots.max()) + 1
-    start = _local(instants[0], tz)
-
-    counts_row, count_problems = _parse_counts(rows[col["counts"]], lines_ok, instants, tz)
-    problems += count_problems
-    counts = np.full(n, np.nan)
-    counts[slots[first_of_slot]] = counts_row[first_of_slot]
-
-    off_wrist = marker = None
-    if col["off_wrist"] is not None:
-        flags, flag_problems = _parse_flags(rows[col["off_wrist"]], lines_ok, instants, tz, "off_wrist", blank_ok=False)
-        problems += flag_problems
-        off_wrist = np.zeros(n, dtype=bool)
-        off_wrist[slots[first_of_slot]] = flags[first_of_slot]
-    if col["marker"] is not None:
-        flags, flag_problems = _parse_flags(rows[col["marker"]], lines_ok, instants, tz, "marker", blank_ok=True)
-        problems += flag_problems
-        marker = np.zeros(n, dtype=bool)
-        marker[slots[first_of_slot]] = flags[first_of_slot]
-
-    return ActigraphyRecord(
-        path=path, start=start, epoch_s=epoch_s, counts=counts, off_wrist=off_wrist, marker=marker, problems=problems
-    )
+    return instants[keep], lines[keep], cells.iloc[keep], col, problems
 
 
 def _local(instant_us: int, tz: str) -> pd.Timestamp:
@@ -138,31 +205,34 @@ def _report(messages: list[str], times: list[pd.Timestamp], summary: str) -> lis
     ]
 
 
-def _drop_isolated_outliers(instants, lines, rows):
-    """Drop single rows more than a day away from both neighbours that agree with each other."""
+def _drop_isolated_outliers(instants, lines):
+    """Rows to keep (None: all) after dropping single rows more than a day away from both neighbours
+    that agree with each other, and the problem reported."""
     if instants.size < 3:
-        return instants, lines, rows, []
+        return None, []
     day = 86400 * _US
     prev_gap = np.abs(instants[1:-1] - instants[:-2])
     next_gap = np.abs(instants[2:] - instants[1:-1])
     bridge = np.abs(instants[2:] - instants[:-2])
     odd = np.r_[False, (prev_gap > day) & (next_gap > day) & (bridge <= day), False]
     if not odd.any():
-        return instants, lines, rows, []
+        return None, []
     msg = f"{int(odd.sum())} timestamp(s) more than a day out of sequence with their neighbours ignored ({line_phrase(lines[odd])})"
-    keep = ~odd
-    return instants[keep], lines[keep], rows.iloc[np.flatnonzero(keep)], [Problem("warning", msg)]
+    return np.flatnonzero(~odd), [Problem("warning", msg)]
 
 
 def _infer_epoch(path: Path, instants: np.ndarray) -> int:
     """Epoch length (s): the most common positive step between timestamps; must be 15, 30 or 60."""
     steps = np.diff(instants)
-    steps = steps[steps > 0]
-    if steps.size == 0:
-        raise ReadError(path, "fewer than two distinct timestamps; cannot infer the epoch length")
-    seconds = np.round(steps / _US).astype(np.int64)
-    values, freq = np.unique(seconds, return_counts=True)
-    epoch = int(values[np.argmax(freq)])
+    if steps.size and steps[0] > 0 and (steps == steps[0]).all():  # a regular file: one step throughout
+        epoch = int(np.round(steps[0] / _US))
+    else:
+        steps = steps[steps > 0]
+        if steps.size == 0:
+            raise ReadError(path, "fewer than two distinct timestamps; cannot infer the epoch length")
+        seconds = np.round(steps / _US).astype(np.int64)
+        values, freq = np.unique(seconds, return_counts=True)
+        epoch = int(values[np.argmax(freq)])
     if epoch not in ALLOWED_EPOCHS_S:
         raise ReadError(
             path,
@@ -220,7 +290,11 @@ def _place_on_grid(instants: np.ndarray, lines: np.ndarray, epoch_s: int, tz: st
         )
 
     valid = np.flatnonzero(slots >= 0)
-    uniq, first_pos = np.unique(slots[valid], return_index=True)
+    valid_slots = slots[valid]
+    if valid_slots.size and (np.diff(valid_slots) > 0).all():  # in order, no duplicates: np.unique's answer
+        uniq, first_pos = valid_slots, np.arange(valid_slots.size)
+    else:
+        uniq, first_pos = np.unique(valid_slots, return_index=True)
     first = valid[first_pos]
     if first.size < valid.size:
         owner = np.full(int(uniq[-1]) + 1, -1, dtype=np.int64)

@@ -1,0 +1,301 @@
+"""The incremental cache: each participant's scored outcome, stored beside the study.
+
+One SQLite file, ``<study>/.sleepfuse-cache/outcomes.sqlite``, one row per
+participant. A row is used only when its key matches: SHA-256 over the
+participant's input files (relative path, source, SHA-256 of the content),
+the rows taken from combined diaries, the effective configuration, the
+sleepfuse and library versions and the cache format. The stored outcome is
+JSON with its own SHA-256, so a damaged row is detected and recomputed, never
+trusted. Review decisions are applied after scoring and are not in the key.
+Source files are only read, never written.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import sqlite3
+import time
+from dataclasses import asdict, dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING, Callable, Iterable
+
+import numpy as np
+
+from . import __version__
+from .qc import QCEntry, QCLog
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .batch import BatchOptions, ParticipantOutcome
+    from .config import StudyConfig
+    from .pipeline import ParticipantJob
+
+CACHE_DIR = ".sleepfuse-cache"
+CACHE_FILE = "outcomes.sqlite"
+CACHE_FORMAT = 1  # bump when ParticipantOutcome or its JSON form changes
+_LIBRARIES = ("numpy", "pandas", "scipy", "pyedflib")
+_COMMIT_EVERY_S = 2.0
+
+
+def library_versions() -> dict[str, str]:
+    """Versions of the libraries whose arithmetic shapes the scores (part of the key)."""
+    import importlib.metadata as md
+
+    out = {}
+    for name in _LIBRARIES:
+        try:
+            out[name] = md.version(name)
+        except md.PackageNotFoundError:
+            out[name] = "not installed"
+    return out
+
+
+def config_fingerprint(config: "StudyConfig") -> str:
+    """The effective configuration as canonical JSON, without where the study lies on disk.
+
+    ``root`` and ``source`` are left out so a study moved or mounted elsewhere
+    (a cluster's shared file system) keeps its cache; the files themselves are
+    identified by relative path and content.
+    """
+    d = config.to_dict()
+    d.pop("root", None)
+    d.pop("source", None)
+    return json.dumps(d, sort_keys=True, default=str)
+
+
+def participant_key(config_json: str, job: "ParticipantJob", inputs: Iterable[dict], libraries: dict[str, str]) -> str:
+    """SHA-256 (hex) that names one participant's outcome: files, diary rows, configuration, versions."""
+    files = sorted((i["file"], i["source"], i["sha256"]) for i in inputs)
+    payload = {
+        "format": CACHE_FORMAT,
+        "sleepfuse": __version__,
+        "libraries": libraries,
+        "participant": job.participant,
+        "files": files,
+        "combined_diary": [repr(e) for e in job.extra_diary],
+        "configuration": config_json,
+    }
+    return hashlib.sha256(json.dumps(payload, sort_keys=True).encode("utf-8")).hexdigest()
+
+
+def _plain(value):
+    """JSON-safe form of numpy scalars (NaN stays NaN: Python's JSON writes it as NaN)."""
+    if isinstance(value, np.bool_):
+        return bool(value)
+    if isinstance(value, np.integer):
+        return int(value)
+    if isinstance(value, np.floating):
+        return float(value)
+    raise TypeError(f"cannot cache a value of type {type(value).__name__}")
+
+
+def encode_outcome(outcome: "ParticipantOutcome") -> bytes:
+    """The outcome's scores as JSON bytes (inputs are re-read each run and not stored)."""
+    data = {
+        "participant": outcome.participant,
+        "rows": outcome.rows,
+        "rhythm": outcome.rhythm,
+        "epoch_rows": outcome.epoch_rows,
+        "qc": [asdict(e) for e in outcome.qc],
+    }
+    return json.dumps(data, default=_plain, allow_nan=True, separators=(",", ":")).encode("utf-8")
+
+
+def decode_outcome(blob: bytes) -> "ParticipantOutcome":
+    from .batch import ParticipantOutcome
+
+    d = json.loads(blob.decode("utf-8"))
+    return ParticipantOutcome(
+        participant=d["participant"], rows=d["rows"], rhythm=d["rhythm"], epoch_rows=d["epoch_rows"],
+        qc=[QCEntry(**e) for e in d["qc"]],
+    )
+
+
+def cacheable(outcome: "ParticipantOutcome") -> bool:
+    """False for outcomes of an unexpected failure (possibly passing): those are recomputed next time."""
+    return not any(e.severity == "error" and e.message.startswith("participant not processed") for e in outcome.qc)
+
+
+class CacheUnavailable(Exception):
+    """The cache cannot be opened or written (read-only study folder, locked file...)."""
+
+
+class OutcomeCache:
+    """SQLite store of participant outcomes; every lookup verifies key and checksum."""
+
+    def __init__(self, path: Path, conn: sqlite3.Connection):
+        self.path = path
+        self._conn = conn
+        self._last_commit = time.monotonic()
+        self.notes: list[str] = []  # what was found wrong with the store itself (reported as QC info)
+
+    @classmethod
+    def open(cls, study_root: str | Path) -> "OutcomeCache":
+        """Open (or create) the study's cache; a damaged file is moved aside and a new one started."""
+        folder = Path(study_root) / CACHE_DIR
+        path = folder / CACHE_FILE
+        try:
+            folder.mkdir(exist_ok=True)
+        except OSError as exc:
+            raise CacheUnavailable(f"cannot create {folder} ({exc.strerror or exc})") from None
+        notes = []
+        try:
+            conn = cls._connect(path)
+        except sqlite3.OperationalError as exc:  # read-only, locked, no space: not the file's fault
+            raise CacheUnavailable(f"cannot open {path} ({exc})") from None
+        except sqlite3.DatabaseError as exc:
+            # Not a database any more (a damaged or overwritten file): keep it for inspection, start afresh.
+            aside = path.with_name(f"{CACHE_FILE}.damaged-{time.strftime('%Y%m%dT%H%M%S')}")
+            try:
+                path.replace(aside)
+                conn = cls._connect(path)
+            except (OSError, sqlite3.DatabaseError) as exc2:
+                raise CacheUnavailable(f"the cache file {path} is damaged and cannot be replaced ({exc2})") from None
+            notes.append(f"cache file was damaged ({exc}); moved to {aside.name} and every participant recomputed")
+        cache = cls(path, conn)
+        cache.notes += notes
+        return cache
+
+    @staticmethod
+    def _connect(path: Path) -> sqlite3.Connection:
+        conn = sqlite3.connect(path, timeout=30.0)
+        try:
+            conn.execute("PRAGMA synchronous=NORMAL")
+            conn.execute(
+                "CREATE TABLE IF NOT EXISTS outcomes (participant TEXT PRIMARY KEY, key TEXT NOT NULL, "
+                "checksum TEXT NOT NULL, blob BLOB NOT NULL, stored TEXT NOT NULL)"
+            )
+            conn.execute("CREATE TABLE IF NOT EXISTS meta (name TEXT PRIMARY KEY, value TEXT NOT NULL)")
+            row = conn.execute("SELECT value FROM meta WHERE name = 'format'").fetchone()
+            if row is None or row[0] != str(CACHE_FORMAT):
+                with conn:
+                    conn.execute("DELETE FROM outcomes")
+                    conn.execute("INSERT OR REPLACE INTO meta VALUES ('format', ?)", (str(CACHE_FORMAT),))
+            conn.execute("SELECT count(*) FROM outcomes").fetchone()  # touches the pages: detects damage now
+        except sqlite3.DatabaseError:
+            conn.close()
+            raise
+        return conn
+
+    def get(self, participant: str, key: str) -> "tuple[ParticipantOutcome | None, str]":
+        """The stored outcome if its key and checksum match; else (None, why) with why '' for a plain miss."""
+        try:
+            row = self._conn.execute(
+                "SELECT key, checksum, blob FROM outcomes WHERE participant = ?", (participant,)
+            ).fetchone()
+        except sqlite3.DatabaseError as exc:
+            return None, f"cache entry unreadable ({exc}); recomputed"
+        if row is None:
+            return None, ""
+        stored_key, checksum, blob = row
+        if stored_key != key:
+            return None, ""  # inputs, configuration or versions changed: stale, recompute
+        blob = bytes(blob)
+        if hashlib.sha256(blob).hexdigest() != checksum:
+            return None, "cache entry damaged (checksum mismatch); recomputed"
+        try:
+            outcome = decode_outcome(blob)
+        except (ValueError, KeyError, TypeError) as exc:
+            return None, f"cache entry unreadable ({type(exc).__name__}); recomputed"
+        if outcome.participant != participant:
+            return None, "cache entry belongs to another participant; recomputed"
+        return outcome, ""
+
+    def put(self, key: str, outcome: "ParticipantOutcome") -> None:
+        """Store one outcome (committed in small groups; a crash keeps what was committed)."""
+        blob = encode_outcome(outcome)
+        stored = time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())
+        self._conn.execute(
+            "INSERT OR REPLACE INTO outcomes VALUES (?, ?, ?, ?, ?)",
+            (outcome.participant, key, hashlib.sha256(blob).hexdigest(), blob, stored),
+        )
+        if time.monotonic() - self._last_commit > _COMMIT_EVERY_S:
+            self.commit()
+
+    def commit(self) -> None:
+        self._conn.commit()
+        self._last_commit = time.monotonic()
+
+    def close(self) -> None:
+        try:
+            self.commit()
+        finally:
+            self._conn.close()
+
+
+@dataclass
+class CacheReport:
+    """What the cache did in one run (for provenance.json and the console)."""
+
+    used: bool
+    path: str = ""
+    from_cache: int = 0
+    recomputed: int = 0
+    reason: str = ""  # why the cache was not used
+
+
+def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", options: "BatchOptions", qc: QCLog,
+               progress: Callable[[str, int, int], None] | None = None) -> "tuple[list[ParticipantOutcome], CacheReport]":
+    """Outcomes of every job: unchanged participants from the cache, the rest computed and stored."""
+    from .batch import _rel, _run_jobs, hash_inputs
+
+    inputs = hash_inputs(config, jobs, options.workers)
+    report = CacheReport(used=False, reason="--no-cache" if not options.cache else "")
+    cache = None
+    if options.cache:
+        try:
+            cache = OutcomeCache.open(config.root)
+        except CacheUnavailable as exc:
+            report.reason = str(exc)
+            qc.info(f"incremental cache not used: {exc}; every participant computed", file=CACHE_DIR)
+    if cache is None:
+        outcomes = _run_jobs(config, jobs, options.workers, progress, inputs=inputs, scheduler=options.scheduler)
+        report.recomputed = len(outcomes)
+        return outcomes, report
+
+    report.used, report.path = True, _rel(config, cache.path)
+    for note in cache.notes:
+        qc.info(note, file=report.path)
+    cfg, libs = config_fingerprint(config), library_versions()
+    keys: list[str | None] = []
+    hits: list = []
+    todo: list[int] = []
+    for k, job in enumerate(jobs):
+        ok = all(i.get("sha256") for i in inputs[k])  # a file that cannot be hashed is never cached
+        key = participant_key(cfg, job, inputs[k], libs) if ok else None
+        keys.append(key)
+        found, why = cache.get(job.participant, key) if key else (None, "")
+        if why:
+            qc.info(why, file=report.path, participant=job.participant)
+        if found is None:
+            todo.append(k)
+        else:
+            found.inputs = inputs[k]
+            hits.append(found)
+    if progress and hits:
+        progress("", len(hits), len(jobs))
+
+    todo_jobs = [jobs[k] for k in todo]
+    broken: list[str] = []
+
+    def store(j: int, outcome: "ParticipantOutcome") -> None:
+        key = keys[todo[j]]
+        if key is None or broken or not cacheable(outcome):
+            return
+        try:
+            cache.put(key, outcome)
+        except Exception as exc:  # a full disk or locked file costs the cache, never the run
+            broken.append(f"{type(exc).__name__}: {exc}")
+
+    try:
+        computed = _run_jobs(config, todo_jobs, options.workers, progress, inputs=[inputs[k] for k in todo],
+                             scheduler=options.scheduler, on_done=store, done_before=len(hits), total=len(jobs))
+    finally:
+        try:
+            cache.close()
+        except Exception as exc:
+            broken.append(f"{type(exc).__name__}: {exc}")
+    if broken:
+        qc.info(f"incremental cache could not be updated ({broken[0]}); the outputs are complete", file=report.path)
+    report.from_cache, report.recomputed = len(hits), len(computed)
+    return sorted(hits + computed, key=lambda o: o.participant), report

@@ -1,0 +1,263 @@
+"""Tests for sleepfuse.cache: the incremental cache of scored participants beside the study.
+
+The study is invented (sleepfuse.synthetic.cohort, seeded). The checks count
+how often a participant is actually scored (``run_participant`` wrapped) and
+compare every output table of a cached run with a full run (common practice
+for a cache: same inputs and settings give the same outputs; changed ones
+are recomputed; damage is detected and never trusted).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import shutil
+import sqlite3
+
+import pandas as pd
+import pytest
+
+import sleepfuse.batch as batch
+import sleepfuse.cache as cache_mod
+from sleepfuse.batch import OUTPUT_TABLES, BatchOptions, run_batch
+from sleepfuse.cache import CACHE_DIR, CACHE_FILE, decode_outcome, encode_outcome
+from sleepfuse.synthetic.cohort import ParticipantPlan, simulate_participant
+
+TZ = "Europe/Berlin"
+IDS = ("Q01", "Q02", "Q03")
+STUDY_TOML = f'[study]\nname = "cache test (invented)"\ntimezone = "{TZ}"\n[actigraphy]\ncount_scale = 0.01\n'
+
+
+def write_small_study(root):
+    """Three invented participants x 4 days (60-s counts, one PSG night, diary each)."""
+    root.mkdir(parents=True, exist_ok=True)
+    (root / "study.toml").write_text(STUDY_TOML)
+    first = dt.date(2026, 5, 4)
+    for i, pid in enumerate(IDS):
+        plan = ParticipantPlan(pid, first, 4, psg_nights=[first + dt.timedelta(days=1)])
+        simulate_participant(root, plan, TZ, seed=500 + i)
+    return root
+
+
+@pytest.fixture(scope="module")
+def template(tmp_path_factory):
+    return write_small_study(tmp_path_factory.mktemp("template") / "study")
+
+
+@pytest.fixture
+def study(tmp_path, template):
+    root = tmp_path / "study"
+    shutil.copytree(template, root)
+    return root
+
+
+@pytest.fixture
+def calls(monkeypatch):
+    """Participants scored in this test, in order (serial runs call run_participant here)."""
+    seen: list[str] = []
+    real = batch.run_participant
+
+    def counting(config, job, inputs=None):
+        seen.append(job.participant)
+        return real(config, job, inputs)
+
+    monkeypatch.setattr(batch, "run_participant", counting)
+    return seen
+
+
+def run(root, out, **kw):
+    return run_batch(root, BatchOptions(out=out, **kw), argv=["test"])
+
+
+def assert_same_tables(a, b, skip_qc_messages: tuple[str, ...] = ()):
+    for name in OUTPUT_TABLES:
+        x, y = a.tables[name], b.tables[name]
+        if name == "qc" and skip_qc_messages:
+            x = x[~x.message.str.contains("|".join(skip_qc_messages))].reset_index(drop=True)
+            y = y[~y.message.str.contains("|".join(skip_qc_messages))].reset_index(drop=True)
+        pd.testing.assert_frame_equal(x, y, check_exact=True, obj=name)
+
+
+def test_second_run_recomputes_nothing_and_gives_the_same_tables(study, tmp_path, calls):
+    first = run(study, tmp_path / "o1")
+    assert sorted(calls) == list(IDS)
+    assert (study / CACHE_DIR / CACHE_FILE).is_file()
+    calls.clear()
+    second = run(study, tmp_path / "o2")
+    assert calls == []
+    assert (second.n_recomputed, second.n_from_cache) == (0, len(IDS))
+    assert second.provenance["counts"]["participants_from_cache"] == len(IDS)
+    assert_same_tables(first, second)
+    # provenance still lists every input with its checksum, read afresh
+    assert [i["file"] for i in second.provenance["inputs"]] == [i["file"] for i in first.provenance["inputs"]]
+    for name in OUTPUT_TABLES:  # the written files are byte-identical too
+        assert (tmp_path / "o1" / f"{name}.csv").read_bytes() == (tmp_path / "o2" / f"{name}.csv").read_bytes()
+
+
+def test_changing_one_file_recomputes_only_that_participant(study, tmp_path, calls):
+    run(study, tmp_path / "o1")
+    diary = study / "diary" / "Q02_diary.csv"
+    lines = diary.read_text().splitlines()
+    fields = lines[1].split(",")
+    fields[-1] = "1" if fields[-1] != "1" else "5"  # the quality rating of the first night
+    lines[1] = ",".join(fields)
+    diary.write_text("\n".join(lines) + "\n")
+    calls.clear()
+    second = run(study, tmp_path / "o2")
+    assert calls == ["Q02"]
+    assert (second.n_recomputed, second.n_from_cache) == (1, 2)
+    full = run(study, tmp_path / "o3", cache=False)
+    assert_same_tables(second, full)
+    n = second.tables["nights"]
+    night = fields[0]
+    assert n[(n.participant == "Q02") & (n.source == "diary") & (n.night == night)].quality.iloc[0] == float(fields[-1])
+
+
+def test_mtime_only_change_is_not_a_change(study, tmp_path, calls):
+    # The key is the file's SHA-256, not its time stamp: a re-export with the same bytes is the same input.
+    import os
+
+    run(study, tmp_path / "o1")
+    path = study / "actigraphy" / "Q01_wrist.csv"
+    os.utime(path, (1e9, 1e9))
+    calls.clear()
+    second = run(study, tmp_path / "o2")
+    assert calls == []
+    rec = next(i for i in second.provenance["inputs"] if i["file"].endswith("Q01_wrist.csv"))
+    assert rec["modified"].startswith("2001-09-09")  # provenance shows the file as it is now
+
+
+def test_configuration_change_recomputes_everyone(study, tmp_path, calls):
+    run(study, tmp_path / "o1")
+    (study / "study.toml").write_text(STUDY_TOML.replace("count_scale = 0.01", "count_scale = 0.02"))
+    calls.clear()
+    second = run(study, tmp_path / "o2")
+    assert sorted(calls) == list(IDS)
+    assert second.n_from_cache == 0
+
+
+def test_new_sleepfuse_version_recomputes_everyone(study, tmp_path, calls, monkeypatch):
+    run(study, tmp_path / "o1")
+    monkeypatch.setattr(cache_mod, "__version__", "999.0")
+    calls.clear()
+    run(study, tmp_path / "o2")
+    assert sorted(calls) == list(IDS)
+
+
+def test_review_decisions_do_not_invalidate_the_cache(study, tmp_path, calls):
+    from sleepfuse.review import record_decision
+
+    first = run(study, tmp_path / "o1")
+    n = first.tables["nights"]
+    night = n[(n.participant == "Q03") & (n.source == "psg")].night.iloc[0]
+    record_decision(study, "Q03", night, "psg", "exclude", "electrode came off")
+    calls.clear()
+    second = run(study, tmp_path / "o2")
+    assert calls == []
+    n2 = second.tables["nights"]
+    row = n2[(n2.participant == "Q03") & (n2.source == "psg")].iloc[0]
+    assert not row.included and "electrode came off" in row.qc
+
+
+def test_damaged_entry_is_recomputed_with_a_qc_note(study, tmp_path, calls):
+    first = run(study, tmp_path / "o1")
+    db = study / CACHE_DIR / CACHE_FILE
+    with sqlite3.connect(db) as conn:  # flip one byte inside Q02's stored outcome
+        blob = bytearray(conn.execute("SELECT blob FROM outcomes WHERE participant='Q02'").fetchone()[0])
+        blob[len(blob) // 2] ^= 0x01
+        conn.execute("UPDATE outcomes SET blob=? WHERE participant='Q02'", (bytes(blob),))
+    calls.clear()
+    second = run(study, tmp_path / "o2")
+    assert calls == ["Q02"]
+    qc = second.tables["qc"]
+    note = qc[qc.message.str.contains("cache entry damaged")]
+    assert len(note) == 1 and note.participant.iloc[0] == "Q02" and note.severity.iloc[0] == "info"
+    assert_same_tables(first, second, skip_qc_messages=("cache entry damaged",))
+    calls.clear()
+    run(study, tmp_path / "o3")  # the recomputed entry was stored again
+    assert calls == []
+
+
+def test_damaged_cache_file_is_set_aside_and_everyone_recomputed(study, tmp_path, calls):
+    first = run(study, tmp_path / "o1")
+    db = study / CACHE_DIR / CACHE_FILE
+    db.write_bytes(b"this is not a database" * 100)
+    calls.clear()
+    second = run(study, tmp_path / "o2")
+    assert sorted(calls) == list(IDS)
+    qc = second.tables["qc"]
+    assert qc.message.str.contains("cache file was damaged").sum() == 1
+    assert list((study / CACHE_DIR).glob(f"{CACHE_FILE}.damaged-*"))
+    assert_same_tables(first, second, skip_qc_messages=("cache file was damaged",))
+
+
+def test_stale_key_in_store_is_not_trusted(study, tmp_path, calls):
+    # An entry whose key does not match (e.g. written for other inputs) is recomputed, silently.
+    run(study, tmp_path / "o1")
+    with sqlite3.connect(study / CACHE_DIR / CACHE_FILE) as conn:
+        conn.execute("UPDATE outcomes SET key='0' WHERE participant='Q01'")
+    calls.clear()
+    run(study, tmp_path / "o2")
+    assert calls == ["Q01"]
+
+
+def test_no_cache_neither_reads_nor_writes_the_cache(study, tmp_path, calls):
+    result = run(study, tmp_path / "o1", cache=False)
+    assert sorted(calls) == list(IDS)
+    assert not (study / CACHE_DIR).exists()
+    assert result.provenance["cache"]["used"] is False and result.provenance["options"]["cache"] is False
+
+
+def test_unwritable_cache_place_falls_back_to_a_full_run_with_a_note(study, tmp_path, calls):
+    (study / CACHE_DIR).write_text("a file where the cache folder would go")
+    result = run(study, tmp_path / "o1")
+    assert sorted(calls) == list(IDS)
+    qc = result.tables["qc"]
+    note = qc[qc.message.str.contains("incremental cache not used")]
+    assert len(note) == 1 and note.severity.iloc[0] == "info"
+    assert (study / CACHE_DIR).read_text().startswith("a file")  # nothing of the user's is replaced
+
+
+def test_source_files_are_never_modified(study, tmp_path):
+    import hashlib
+
+    def digests():
+        return {p: hashlib.sha256(p.read_bytes()).hexdigest() for p in study.rglob("*")
+                if p.is_file() and CACHE_DIR not in p.parts}
+
+    before = digests()
+    run(study, tmp_path / "o1")
+    run(study, tmp_path / "o2")
+    assert digests() == before
+
+
+def test_outcome_json_round_trip_keeps_nan_bools_and_qc(study, tmp_path):
+    import math
+
+    from sleepfuse.config import load_config
+    from sleepfuse.pipeline import plan_jobs
+    from sleepfuse.qc import QCLog
+
+    config = load_config(study)
+    jobs, _ = plan_jobs(config, QCLog())
+    outcome = batch.run_participant(config, jobs[0])
+    back = decode_outcome(encode_outcome(outcome))
+    assert back.participant == outcome.participant and back.qc == outcome.qc
+    assert back.rhythm == outcome.rhythm and back.epoch_rows == outcome.epoch_rows
+    for a, b in zip(outcome.rows, back.rows):
+        assert a.keys() == b.keys()
+        for k in a:
+            if isinstance(a[k], float) and math.isnan(a[k]):
+                assert math.isnan(b[k])
+            else:
+                assert a[k] == b[k] and type(b[k]) in (type(a[k]), float, int, bool), k
+
+
+def test_cli_no_cache_and_counts_on_stderr(study, tmp_path, capsys):
+    from sleepfuse.cli import main
+
+    assert main(["batch", str(study), "--out", str(tmp_path / "o1")]) == 0
+    assert "3 computed, 0 from cache" in capsys.readouterr().err
+    assert main(["batch", str(study), "--out", str(tmp_path / "o2")]) == 0
+    assert "0 computed, 3 from cache" in capsys.readouterr().err
+    assert main(["batch", str(study), "--out", str(tmp_path / "o3"), "--no-cache"]) == 0
+    assert "3 computed, 0 from cache" in capsys.readouterr().err
