@@ -11,20 +11,20 @@ Entry point for front ends: :func:`explore` (a DataFrame and a column specificat
 an :class:`ExploreResult` with the BIC table, membership and cluster sizes out).
 """
 
-from sleepfuse.explore.columns import BLOCKS, ColumnSet, PreparedData, column_sets, prepare
-from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixture, fit_mixtures
-from sleepfuse.explore.selection import (
-    EXPLORATORY_CAUTION,
-    BlockResult,
-    ExploreResult,
-    HoldoutResult,
-    adjusted_rand_index,
-    explore,
-    explore_block,
-)
+_EXPORTS = {
+    "BLOCKS": "columns", "ColumnSet": "columns", "PreparedData": "columns", "column_sets": "columns",
+    "prepare": "columns", "FAMILIES": "names", "EXPLORATORY_CAUTION": "names", "MixtureFit": "mixtures",
+    "fit_mixture": "mixtures", "fit_mixtures": "mixtures", "BlockResult": "selection",
+    "ExploreResult": "selection", "HoldoutResult": "selection", "adjusted_rand_index": "selection",
+    "explore": "selection", "explore_block": "selection",
+}
+__all__ = sorted(_EXPORTS)
 
-__all__ = [
-    "BLOCKS", "FAMILIES", "EXPLORATORY_CAUTION", "ColumnSet", "PreparedData", "MixtureFit",
-    "BlockResult", "ExploreResult", "HoldoutResult", "column_sets", "prepare", "fit_mixture",
-    "fit_mixtures", "explore", "explore_block", "adjusted_rand_index",
-]
+
+def __getattr__(name: str):
+    """Load the fitting code only when it is used (PEP 562), so the command line starts fast."""
+    if name in _EXPORTS:
+        import importlib
+
+        return getattr(importlib.import_module(f"sleepfuse.explore.{_EXPORTS[name]}"), name)
+    raise AttributeError(f"module 'sleepfuse.explore' has no attribute {name!r}")

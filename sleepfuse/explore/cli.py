@@ -11,14 +11,17 @@ from __future__ import annotations
 import argparse
 import sys
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import pandas as pd
 
 from sleepfuse.errors import ConfigError
 from sleepfuse.explore.columns import BLOCKS, PARTICIPANT
-from sleepfuse.explore.mixtures import FAMILIES
+from sleepfuse.explore.names import EXPLORATORY_CAUTION, FAMILIES
 from sleepfuse.explore.output import write_csv_atomic
-from sleepfuse.explore.selection import EXPLORATORY_CAUTION, ExploreResult, explore
+
+if TYPE_CHECKING:
+    from sleepfuse.explore.selection import ExploreResult
 
 DESCRIPTION = (
     "Look for subgroups of participants in a participant x feature matrix with Gaussian and "
@@ -155,6 +158,8 @@ def summary_lines(result: ExploreResult) -> list[str]:
 
 def run_explore(args) -> int:
     """Run the explore command from parsed arguments; returns the exit status."""
+    from sleepfuse.explore.selection import explore
+
     try:
         families = _check_options(args)
         matrix = read_matrix(args.matrix)

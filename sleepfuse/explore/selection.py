@@ -22,10 +22,7 @@ import pandas as pd
 from sleepfuse.explore.columns import ColumnSet, PreparedData, column_sets, columns_by_pattern, prepare
 from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures
 
-EXPLORATORY_CAUTION = (
-    "Clustering is exploratory: it generates hypotheses, and any subgroup needs "
-    "confirmation in a separate validation sample."
-)
+from sleepfuse.explore.names import EXPLORATORY_CAUTION  # noqa: E402  (re-exported)
 MODEL_COLUMNS = ["block", "set", "family", "K", "loglik", "n_params", "BIC", "converged", "n_iter", "message"]
 MEMBERSHIP_COLUMNS = ["participant", "block", "set", "family", "K", "cluster", "probability", "reason"]
 
