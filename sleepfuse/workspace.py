@@ -21,6 +21,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from .batch import ParticipantOutcome, job_inputs
 from .config import StudyConfig, load_config
 from .definitions import PAIRS, PARAMETERS, pair_name
 from .fusion.disagreement import rank_disagreements
@@ -63,9 +64,14 @@ class ParameterLine:
 
 
 class StudyLoader:
-    """Discover a study's files now; score its participants chunk by chunk later (for a progress display)."""
+    """Discover a study's files now; score its participants chunk by chunk later (for a progress display).
 
-    def __init__(self, root: str | Path, config: StudyConfig | None = None):
+    Participants whose files and settings are unchanged come from the batch
+    cache (``sleepfuse.cache``) without their epoch detail, which the
+    workspace re-scores on demand; the others are scored and stored.
+    """
+
+    def __init__(self, root: str | Path, config: StudyConfig | None = None, *, use_cache: bool = True):
         self.root = Path(root)
         self.config = config if config is not None else load_config(self.root)
         self.qc = QCLog()
@@ -77,6 +83,8 @@ class StudyLoader:
         self.scored: list[ScoredParticipant] = []
         self.epoch_rows: list[dict] = []
         self.decisions = load_decisions(self.root)
+        self.use_cache = use_cache
+        self.from_cache: set[str] = set()  # participants scored from the cache (no epoch detail held)
 
     @property
     def participants(self) -> list[str]:
@@ -84,30 +92,65 @@ class StudyLoader:
 
     def score(self, participants: list[str]) -> pd.DataFrame:
         """Score these participants; returns their night rows with review decisions applied."""
-        chunk = []
-        for pid in participants:
-            scored, entries = process_participant(self.config, self.jobs[pid])
-            local = QCLog(list(entries))
+        from .cache import CacheUnavailable, OutcomeCache, cacheable, config_fingerprint, library_versions, participant_key
+
+        cache = None
+        if self.use_cache:
             try:
-                self.epoch_rows += epoch_rows(self.config, scored, local)
-            except Exception as exc:  # epoch agreement is optional; never lose the participant for it
-                local.error(f"epoch-by-epoch agreement not computed: {type(exc).__name__}: {exc}", participant=pid)
-            self.qc.extend(local.entries)
-            chunk.append(scored)
+                cache = OutcomeCache.open(self.root)  # one connection per call: workers may change threads
+            except CacheUnavailable as exc:
+                self.qc.info(f"incremental cache not used: {exc}")
+                self.use_cache = False
+        cfg, libs = (config_fingerprint(self.config), library_versions()) if cache else ("", {})
+        chunk = []
+        try:
+            for pid in participants:
+                job, key = self.jobs[pid], None
+                if cache is not None:
+                    inputs = job_inputs(self.config, job)
+                    if all(i.get("sha256") for i in inputs):
+                        key = participant_key(cfg, job, inputs, libs)
+                        found, why = cache.get(pid, key)
+                        if why:
+                            self.qc.info(why, participant=pid)
+                        if found is not None:
+                            self.from_cache.add(pid)
+                            self.epoch_rows += found.epoch_rows
+                            self.qc.extend(found.qc)
+                            chunk.append(ScoredParticipant(pid, rows=found.rows, rhythm=found.rhythm))
+                            continue
+                scored, entries = process_participant(self.config, job)
+                local = QCLog(list(entries))
+                try:
+                    erows = epoch_rows(self.config, scored, local)
+                except Exception as exc:  # epoch agreement is optional; never lose the participant for it
+                    erows = []
+                    local.error(f"epoch-by-epoch agreement not computed: {type(exc).__name__}: {exc}", participant=pid)
+                if cache is not None and key is not None:
+                    outcome = ParticipantOutcome(pid, scored.rows, scored.rhythm, erows, local.entries)
+                    if cacheable(outcome):
+                        cache.put(key, outcome)
+                self.epoch_rows += erows
+                self.qc.extend(local.entries)
+                chunk.append(scored)
+        finally:
+            if cache is not None:
+                cache.close()
         self.scored += chunk
         return apply_decisions(night_table(chunk), self.decisions)
 
     def finish(self) -> "Workspace":
         keep = len(self.scored) <= KEEP_ALL_DETAIL
         return Workspace(self.root, self.config, self.scored, self.qc, self.epoch_rows, jobs=self.jobs,
-                         keep_detail=keep)
+                         keep_detail=keep, without_detail=self.from_cache)
 
 
 class Workspace:
     """The open study: everything the screens show, computed once and updated on each review decision."""
 
     def __init__(self, root: Path, config: StudyConfig, scored: list[ScoredParticipant], qc: QCLog,
-                 epoch_rows: list[dict], *, jobs: dict[str, ParticipantJob] | None = None, keep_detail: bool = True):
+                 epoch_rows: list[dict], *, jobs: dict[str, ParticipantJob] | None = None, keep_detail: bool = True,
+                 without_detail: set[str] = frozenset()):
         self.root = Path(root)
         self.config = config
         self.qc = qc
@@ -117,7 +160,8 @@ class Workspace:
         self._lock = threading.Lock()
         self._detail: OrderedDict[str, ScoredParticipant] = OrderedDict()
         self._keep_all = keep_detail
-        for s in scored if keep_detail else scored[-DETAIL_CACHE:]:
+        with_detail = [s for s in scored if s.participant not in without_detail]
+        for s in with_detail if keep_detail else with_detail[-DETAIL_CACHE:]:
             self._detail[s.participant] = s
         self.base_nights = night_table(scored)  # before review decisions
         self._problems = self._count_problems(qc.entries)

@@ -12,7 +12,7 @@ SAMPLE = Path(__file__).resolve().parents[1] / "sample_records"
 
 def copy_study(dest: Path) -> Path:
     """A private copy of the demo study (review decisions are written beside the study, never into the repo)."""
-    shutil.copytree(SAMPLE, dest, ignore=shutil.ignore_patterns("sleepfuse-review.csv", "generate.py"))
+    shutil.copytree(SAMPLE, dest, ignore=shutil.ignore_patterns("sleepfuse-review.csv", "generate.py", ".sleepfuse-cache"))
     return dest
 
 
