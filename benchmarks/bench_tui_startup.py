@@ -1,4 +1,7 @@
-"""Benchmark of the terminal app's start (not a test): ``python benchmarks/bench_tui_startup.py [N]``.
+"""Benchmark of the terminal app's start (not a test).
+
+    python benchmarks/bench_tui_startup.py [N]            # writes an N-participant cohort (default 500)
+    python benchmarks/bench_tui_startup.py --study DIR    # an existing study, opened twice (cold, then cached)
 
 Writes an invented N-participant cohort (default 500; 7 days of 60-s
 actigraphy, a diary, one PSG night each; seeded, no real person) into a
@@ -71,15 +74,25 @@ async def measure(root: Path) -> dict[str, float]:
     return out
 
 
+def _print(result: dict) -> None:
+    for key, value in result.items():
+        print(f"{key:>20}: {value:.3f}" if isinstance(value, float) else f"{key:>20}: {value}")
+
+
 def main() -> None:
+    if len(sys.argv) > 2 and sys.argv[1] == "--study":
+        root = Path(sys.argv[2])
+        for label in ("first open (cache as found)", "second open (cache warm)"):
+            print(label)
+            _print(asyncio.run(measure(root)))
+        return
     n = int(sys.argv[1]) if len(sys.argv) > 1 else 500
     with tempfile.TemporaryDirectory() as tmp:
         root = Path(tmp) / "cohort"
         t = time.perf_counter()
         write_cohort(root, n)
         print(f"wrote {n} invented participants in {time.perf_counter() - t:.1f} s")
-        for key, value in asyncio.run(measure(root)).items():
-            print(f"{key:>20}: {value:.3f}" if isinstance(value, float) else f"{key:>20}: {value}")
+        _print(asyncio.run(measure(root)))
 
 
 if __name__ == "__main__":
