@@ -17,7 +17,8 @@ from .errors import ConfigError
 EXIT_OK, EXIT_NOTHING, EXIT_USAGE = 0, 1, 2
 
 
-def _study_dir(value: str) -> Path:
+def study_dir(value: str) -> Path:
+    """argparse type of a STUDY argument: an existing folder."""
     path = Path(value)
     if not path.is_dir():
         raise argparse.ArgumentTypeError(f"{value!r} is not a folder; give the study folder (with psg/, actigraphy/, diary/)")
@@ -41,7 +42,7 @@ def build_parser() -> argparse.ArgumentParser:
         help="read every file of a study and print the QC log and the nights per instrument",
         description="Read every file of STUDY, print the QC log and, per participant, the nights each instrument covers.",
     )
-    p.add_argument("study", type=_study_dir, metavar="STUDY", help="study folder (psg/, actigraphy/, diary/, study.toml)")
+    p.add_argument("study", type=study_dir, metavar="STUDY", help="study folder (psg/, actigraphy/, diary/, study.toml)")
     p.add_argument("--quiet", action="store_true", help="print only warnings and errors of the QC log")
     p.set_defaults(func=_run_check)
 

@@ -6,11 +6,7 @@ import argparse
 import sys
 from pathlib import Path
 
-
-def _study_dir(value: str) -> Path:
-    from .cli import _study_dir as check
-
-    return check(value)
+from .cli import study_dir
 
 
 def register(sub) -> None:
@@ -21,7 +17,7 @@ def register(sub) -> None:
         description="Score STUDY and write the night table: one row per participant, night and source "
         "(psg, actigraphy, diary) with every parameter of the definitions, 'included' and 'qc'.",
     )
-    p.add_argument("study", type=_study_dir, metavar="STUDY", help="study folder")
+    p.add_argument("study", type=study_dir, metavar="STUDY", help="study folder")
     p.add_argument("--out", type=Path, metavar="FILE", help="CSV file to write (default: standard output)")
     p.set_defaults(func=run_score)
     register_batch(sub)
@@ -63,7 +59,7 @@ def register_batch(sub) -> None:
         "and provenance.json into DIR. A bad file never stops the run; it is reported in qc and on the console. "
         "Exit status is non-zero only when nothing could be processed or the command line is wrong.",
     )
-    p.add_argument("study", type=_study_dir, metavar="STUDY", help="study folder")
+    p.add_argument("study", type=study_dir, metavar="STUDY", help="study folder")
     p.add_argument("--out", type=Path, required=True, metavar="DIR", help="output folder (created if missing)")
     p.add_argument("--format", choices=("csv", "parquet"), default="csv", help="table format (default: csv)")
     p.add_argument("--plots", action="store_true", help="also write Bland–Altman figures (PNG and SVG) into DIR/plots/")

@@ -178,37 +178,23 @@ def load_participant(
 ) -> ParticipantRecords:
     """Read one participant's files; each bad file becomes a QC error and is skipped."""
     rec = ParticipantRecords(participant)
-    root = config.root
-    for path in files.get("psg", []):
-        rel = _rel(path, root)
-        rec.files.append(path)
-        try:
-            h = read_hypnogram_file(config, path)
-        except ReadError as exc:
-            qc.error(f"PSG file not read: {exc.reason}", file=rel, participant=participant)
-            continue
-        _report_problems(qc, h.problems, file=rel, participant=participant)
-        rec.hypnograms.append(h)
-    for path in files.get("actigraphy", []):
-        rel = _rel(path, root)
-        rec.files.append(path)
-        try:
-            a = read_actigraphy_file(config, path)
-        except ReadError as exc:
-            qc.error(f"actigraphy file not read: {exc.reason}", file=rel, participant=participant)
-            continue
-        _report_problems(qc, a.problems, file=rel, participant=participant)
-        rec.actigraphy.append(a)
-    for path in files.get("diary", []):
-        rel = _rel(path, root)
-        rec.files.append(path)
-        try:
-            d = read_diary_file(config, path, participant)
-        except ReadError as exc:
-            qc.error(f"diary file not read: {exc.reason}", file=rel, participant=participant)
-            continue
-        _report_problems(qc, d.problems, file=rel, participant=participant)
-        rec.diary.extend(e for e in d.entries if e.participant == participant)
+    readers = {  # source -> (label in messages, reader, where the record goes)
+        "psg": ("PSG", lambda p: read_hypnogram_file(config, p), rec.hypnograms.append),
+        "actigraphy": ("actigraphy", lambda p: read_actigraphy_file(config, p), rec.actigraphy.append),
+        "diary": ("diary", lambda p: read_diary_file(config, p, participant),
+                  lambda d: rec.diary.extend(e for e in d.entries if e.participant == participant)),
+    }
+    for source, (label, read, keep) in readers.items():
+        for path in files.get(source, []):
+            rel = _rel(path, config.root)
+            rec.files.append(path)
+            try:
+                record = read(path)
+            except ReadError as exc:
+                qc.error(f"{label} file not read: {exc.reason}", file=rel, participant=participant)
+                continue
+            _report_problems(qc, record.problems, file=rel, participant=participant)
+            keep(record)
     rec.diary.extend(extra_diary)
     _check_duplicate_nights(rec, qc, config)
     return rec

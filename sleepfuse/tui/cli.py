@@ -6,17 +6,12 @@ import argparse
 import sys
 from pathlib import Path
 
+from ..cli import study_dir
+
 NO_TTY_MESSAGE = (
     "sleepfuse open needs an interactive terminal; for headless use run: sleepfuse batch STUDY --out DIR"
 )
 EXIT_USAGE = 2
-
-
-def _study_dir(value: str) -> Path:
-    path = Path(value)
-    if not path.is_dir():
-        raise argparse.ArgumentTypeError(f"{value!r} is not a folder; give the study folder (with psg/, actigraphy/, diary/)")
-    return path
 
 
 def add_open_parser(subparsers) -> argparse.ArgumentParser:
@@ -28,7 +23,7 @@ def add_open_parser(subparsers) -> argparse.ArgumentParser:
         "the nights where instruments disagree, Bland–Altman agreement, review decisions and export. "
         "Needs an interactive terminal; headless, use 'sleepfuse batch'.",
     )
-    p.add_argument("study", type=_study_dir, metavar="STUDY", help="study folder")
+    p.add_argument("study", type=study_dir, metavar="STUDY", help="study folder")
     p.add_argument("--export-dir", type=Path, metavar="DIR", default=None,
                    help="default folder offered by the export dialog (default: STUDY-sleepfuse-out beside the study)")
     p.set_defaults(func=run_open)
