@@ -172,9 +172,18 @@ def best_clock_offset(
     )
     k_max = int(np.floor(max_offset_min * 60.0 / step + 1e-9))
     offsets = np.arange(-k_max, k_max + 1) * step
+    # Only scored PSG epochs can count at any offset, so look up just those (same counts, less work).
+    mid, psg_sleep = mid[scored], psg_sleep[scored]
     a, ok = _lookup(mid, offsets, float(act_epoch_s), act, act_ok)
-    valid = scored[None, :] & ok
-    kappas = _kappa(*_kappa_parts(psg_sleep[None, :], a, valid, axis=1))
+    # The 2 × 2 table from four counts per offset (integer arithmetic, identical to _kappa_parts).
+    a_ok = a & ok
+    n_ok = np.count_nonzero(ok, axis=1)
+    n_psg = np.count_nonzero(ok & psg_sleep[None, :], axis=1)
+    n_act = np.count_nonzero(a_ok, axis=1)
+    tp = np.count_nonzero(a_ok & psg_sleep[None, :], axis=1)
+    fn, fp = n_psg - tp, n_act - tp
+    tn = n_ok - n_psg - fp
+    kappas = _kappa(tp, fn, tn, fp)
     zero = int(k_max)
     out = {"offset_s": _NAN, "kappa_at_zero": float(kappas[zero]), "kappa_at_best": _NAN,
            "n_offsets": int(offsets.size)}

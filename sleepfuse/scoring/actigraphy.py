@@ -93,7 +93,15 @@ def epochs_to_minutes(counts: np.ndarray, epoch_s: float) -> np.ndarray:
             "1-min algorithms need epochs of 60 s or an exact fraction of it (e.g. 15, 30 s)"
         )
     n_min = counts.size // k
-    return counts[: n_min * k].reshape(n_min, k).sum(axis=1)
+    blocks = counts[: n_min * k].reshape(n_min, k)
+    if k >= 8:  # numpy's pairwise summation order for longer rows: keep it
+        return blocks.sum(axis=1)
+    # Column by column, left to right: the same additions, in the same order, as
+    # blocks.sum(axis=1) for rows shorter than 8 (bit-identical), and far faster.
+    out = blocks[:, 0].copy()
+    for j in range(1, k):
+        out += blocks[:, j]
+    return out
 
 
 def cole_kripke_index(

@@ -183,9 +183,11 @@ def score_actigraphy_night(
     diary: DiaryEntry | None,
     qc: QCLog,
     out: ScoredParticipant,
+    file: str | None = None,
 ) -> None:
+    """Score one night of one actigraphy record; ``file`` is the record's study-relative path if known."""
     row = _row(participant, night, "actigraphy")
-    note = _Notes(qc, row, _rel(scoring.path, config))
+    note = _Notes(qc, row, _rel(scoring.path, config) if file is None else file)
     tz = config.timezone
     window = diary_window(diary)
     if window is None and scoring.marker is not None:
@@ -249,13 +251,15 @@ def score_participant(config: StudyConfig, rec: ParticipantRecords, qc: QCLog) -
     for a in sorted(rec.actigraphy, key=lambda a: a.start):
         scoring = score_actigraphy_record(config, a, qc, rec.participant)
         out.actigraphy.append(scoring)
+        rel = _rel(a.path, config)  # once per record, not once per night
         for night in actigraphy_nights(a):
             if night in done:
                 qc.warning(f"night {night} is covered by two actigraphy files; the first is used",
                            file=_rel(a.path, config), participant=rec.participant, night=night)
                 continue
             done.add(night)
-            score_actigraphy_night(config, rec.participant, night, scoring, usable_diary.get(night), qc, out)
+            score_actigraphy_night(config, rec.participant, night, scoring, usable_diary.get(night), qc, out,
+                                   file=rel)
         if best is None or a.n_epochs > best.n_epochs:
             best, best_scoring = a, scoring
     if best is not None:

@@ -15,7 +15,7 @@ import math
 
 import numpy as np
 
-from ..stages import Stage, is_sleep
+from ..stages import Stage
 
 COMMON_PARAMETERS = (
     "tib_min",
@@ -42,6 +42,11 @@ STAGE_PARAMETERS = (
 EXTRA_PARAMETERS = ("unscored_min", "offwrist_min")
 
 _VALID_CODES = np.array([int(s) for s in Stage])
+_CODE_MIN, _CODE_MAX = int(_VALID_CODES.min()), int(_VALID_CODES.max())
+# The Stage codes form one contiguous range, so a min/max check equals np.isin (and is much cheaper).
+_CODES_CONTIGUOUS = set(_VALID_CODES.tolist()) == set(range(_CODE_MIN, _CODE_MAX + 1))
+_WAKE, _N1, _N2, _N3, _REM = int(Stage.WAKE), int(Stage.N1), int(Stage.N2), int(Stage.N3), int(Stage.REM)
+_SLEEP, _UNSCORED, _OFFWRIST = int(Stage.SLEEP), int(Stage.UNSCORED), int(Stage.OFFWRIST)
 _NAN = float("nan")
 
 
@@ -71,6 +76,8 @@ def _check_codes(codes: np.ndarray) -> np.ndarray:
         if not np.all(np.isfinite(codes)) or np.any(codes != np.round(codes)):
             raise ValueError("stage codes must be integers (sleepfuse.stages.Stage values)")
     codes = codes.astype(np.int16, copy=False)
+    if _CODES_CONTIGUOUS and (codes.size == 0 or (int(codes.min()) >= _CODE_MIN and int(codes.max()) <= _CODE_MAX)):
+        return codes
     bad = ~np.isin(codes, _VALID_CODES)
     if bad.any():
         raise ValueError(
@@ -129,18 +136,20 @@ def sleep_parameters(
     if n == 0:
         return out
 
-    sleep = is_sleep(codes)
-    wake = codes == Stage.WAKE
-    out["unscored_min"] = float(np.count_nonzero(codes == Stage.UNSCORED)) * ep
-    out["offwrist_min"] = float(np.count_nonzero(codes == Stage.OFFWRIST)) * ep
-    n_sleep = int(np.count_nonzero(sleep))
+    # One pass counts every code (codes are checked to lie in [_CODE_MIN, _CODE_MAX]).
+    tally = np.bincount(codes - _CODE_MIN, minlength=_CODE_MAX - _CODE_MIN + 1)
+    count = {code: int(tally[code - _CODE_MIN]) for code in range(_CODE_MIN, _CODE_MAX + 1)}
+    sleep = (codes >= _N1) & (codes <= _SLEEP)  # == stages.is_sleep(codes)
+    out["unscored_min"] = float(count[_UNSCORED]) * ep
+    out["offwrist_min"] = float(count[_OFFWRIST]) * ep
+    n_sleep = sum(count[c] for c in range(_N1, _SLEEP + 1))
     tst = n_sleep * ep
     out["tst_min"] = tst
     out["se_pct"] = 100.0 * tst / out["tib_min"]
 
     if staged:
-        for key, stage in (("n1", Stage.N1), ("n2", Stage.N2), ("n3", Stage.N3), ("rem", Stage.REM)):
-            minutes = float(np.count_nonzero(codes == stage)) * ep
+        for key, stage in (("n1", _N1), ("n2", _N2), ("n3", _N3), ("rem", _REM)):
+            minutes = float(count[stage]) * ep
             out[f"{key}_min"] = minutes
             out[f"{key}_pct"] = 100.0 * minutes / tst if n_sleep else _NAN
 
@@ -154,7 +163,8 @@ def sleep_parameters(
     out["spt_min"] = (last + 1 - first) * ep
     out["terminal_wake_min"] = (n - 1 - last) * ep
     in_spt = slice(first, last + 1)
-    out["waso_min"] = float(np.count_nonzero(wake[in_spt])) * ep
+    wake = codes[in_spt] == _WAKE  # wake epochs inside the SPT
+    out["waso_min"] = float(np.count_nonzero(wake)) * ep
 
     # Latency to persistent sleep: first sleep run of >= lps_run_min minutes.
     starts, lengths, values = _runs(sleep)
@@ -164,11 +174,10 @@ def sleep_parameters(
 
     # Wake bouts inside the sleep period (the SPT starts and ends on sleep, so
     # every wake run in it is interior and maximal).
-    w_starts, w_lengths, w_values = _runs(wake[in_spt])
+    w_starts, w_lengths, w_values = _runs(wake)
     bout = _min_epochs(min_wake_bout_min, ep) if min_wake_bout_min > 0 else 1
     out["nwak"] = float(np.count_nonzero(w_values & (w_lengths >= bout)))
 
     if staged:
-        rem_idx = np.flatnonzero(codes == Stage.REM)
-        out["rem_latency_min"] = float(rem_idx[0] - first) * ep if rem_idx.size else _NAN
+        out["rem_latency_min"] = float(int(np.argmax(codes == _REM)) - first) * ep if count[_REM] else _NAN
     return out

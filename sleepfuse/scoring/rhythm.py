@@ -18,27 +18,74 @@ HOURS_PER_DAY = 24  # p in Van Someren et al. 1999
 _NS_PER_HOUR = 3_600_000_000_000
 
 
+def _elapsed_ns(start: pd.Timestamp, epoch_s: float, n: int) -> np.ndarray:
+    """UTC (or naive) ns of epochs 0..n-1, i.e. start + i·epoch_s, as pandas computes it."""
+    ts = pd.Timestamp(start)
+    step_ns = float(epoch_s) * 1e9
+    if step_ns.is_integer() and float(epoch_s).is_integer():
+        # Whole seconds: i·epoch_s is exact in float, so pandas' float-seconds conversion
+        # gives exactly i·epoch_s·1e9 ns; integer arithmetic yields the same values.
+        return ts.as_unit("ns").value + np.arange(n, dtype=np.int64) * np.int64(step_ns)
+    times = pd.DatetimeIndex(ts + pd.to_timedelta(np.arange(n) * float(epoch_s), unit="s"))
+    return times.as_unit("ns").asi8
+
+
+def _utc_offsets_ns(utc_ns: np.ndarray, tz) -> np.ndarray:
+    """Local UTC offset (ns) at each instant of a sorted-by-construction regular series.
+
+    The time zone is asked only on a coarse grid (about one instant per hour)
+    and, exactly, at every instant of a coarse step whose two ends differ.
+    This equals asking at every instant because no zone in the tz database
+    changes its offset twice within an hour (the shortest gap between two
+    transitions is about a week).
+    """
+    n = utc_ns.size
+
+    def ask(ns: np.ndarray) -> np.ndarray:
+        idx = pd.DatetimeIndex(ns.astype("datetime64[ns]")).tz_localize("UTC").tz_convert(tz)
+        return idx.tz_localize(None).as_unit("ns").asi8 - ns
+
+    if n < 2:
+        return ask(utc_ns)
+    span = int(utc_ns[-1] - utc_ns[0])
+    if span <= 0:  # not a forward series: ask at every instant
+        return ask(utc_ns)
+    step = max(1, int(_NS_PER_HOUR // max(span // (n - 1), 1)))  # epochs per coarse step (≤ 1 h)
+    grid = np.arange(0, n, step)
+    if grid[-1] != n - 1:
+        grid = np.r_[grid, n - 1]
+    coarse = ask(utc_ns[grid])
+    offsets = np.repeat(coarse[:-1], np.diff(grid))
+    offsets = np.r_[offsets, coarse[-1:]]
+    for k in np.flatnonzero(coarse[1:] != coarse[:-1]):
+        lo, hi = int(grid[k]), int(grid[k + 1])
+        offsets[lo: hi + 1] = ask(utc_ns[lo: hi + 1])
+    return offsets
+
+
 def _epoch_hours(start: pd.Timestamp, epoch_s: float, n: int):
     """Per epoch: UTC ns of its local wall-clock hour start, and that hour of day (0–23).
 
     Epoch i is at start + i·epoch_s elapsed; the hour is the local wall-clock
     hour, so the repeated hour at a DST fall-back gives two distinct bins.
+    Integer ns arithmetic throughout (no per-epoch Timestamps).
     """
-    ts = pd.Timestamp(start)
-    times = ts + pd.to_timedelta(np.arange(n) * float(epoch_s), unit="s")
-    times = pd.DatetimeIndex(times)
-    if times.tz is None:
-        wall = times
-        utc_ns = times.as_unit("ns").asi8
-    else:
-        utc_ns = times.as_unit("ns").asi8
-        wall = times.tz_localize(None)  # local wall-clock time, naive
-    wall_ns = wall.as_unit("ns").asi8
-    offset = wall_ns - utc_ns
-    wall_hour_ns = (wall_ns // _NS_PER_HOUR) * _NS_PER_HOUR
-    key = wall_hour_ns - offset
-    hour_of_day = ((wall_hour_ns // _NS_PER_HOUR) % 24).astype(np.int64)
-    return key, hour_of_day, times.tz
+    key, wall_hour, tz = _hour_keys(start, epoch_s, n)
+    return key, (wall_hour % 24).astype(np.int64), tz
+
+
+def _hour_keys(start: pd.Timestamp, epoch_s: float, n: int):
+    """Per epoch: UTC ns of its local wall-clock hour start, the wall-clock hour count, the zone."""
+    tz = pd.Timestamp(start).tz
+    utc_ns = _elapsed_ns(start, epoch_s, n)
+    if tz is None:
+        wall_hour = utc_ns // _NS_PER_HOUR
+        return wall_hour * _NS_PER_HOUR, wall_hour, tz
+    offset = _utc_offsets_ns(utc_ns, tz)
+    wall_hour = (utc_ns + offset) // _NS_PER_HOUR
+    key = wall_hour * _NS_PER_HOUR
+    key -= offset
+    return key, wall_hour, tz
 
 
 def hourly_means(
@@ -69,7 +116,7 @@ def hourly_means(
     tz = pd.Timestamp(start).tz
     if counts.size == 0:
         return pd.Series([], index=pd.DatetimeIndex([], tz=tz, name="hour"), dtype=float, name="counts_per_min")
-    key, _, tz = _epoch_hours(start, epoch_s, counts.size)
+    key, _, tz = _hour_keys(start, epoch_s, counts.size)
     step = np.diff(key)
     if (step >= 0).all():  # elapsed time runs forward: hour bins are runs of equal keys (np.unique's answer)
         first = np.r_[True, step != 0]
