@@ -14,7 +14,6 @@ import datetime as dt
 import io
 import re
 import warnings
-from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -31,14 +30,35 @@ _HOUR_US = 3600 * _US
 _OFFSET_RE = r"\d:\d{2}(?:[.,]\d+)?\s*(?:[Zz]|[+-]\d{2}(?::?\d{2})?)$"
 
 
-@dataclass
 class CsvTable:
-    """A CSV file as strings: header names, one str column per header, file lines."""
+    """A CSV file as strings: header names, one str column per header, file lines.
 
-    header: list[str]
-    cells: pd.DataFrame  # dtype str, "" for empty; columns numbered 0..n-1
-    lines: np.ndarray  # int64, 1-based file line of each row
-    delimiter: str
+    ``cells`` (dtype str, "" for empty; columns numbered 0..n-1) is built on first
+    use when the table was split in Python; ``values()`` gives the same cells as
+    an object array without building it.
+    """
+
+    def __init__(self, header: list[str], cells: pd.DataFrame | None, lines: np.ndarray, delimiter: str,
+                 *, rows: list[list[str]] | None = None):
+        self.header = header
+        self._cells = cells
+        self._rows = rows
+        self.lines = lines  # int64, 1-based file line of each row
+        self.delimiter = delimiter
+
+    @property
+    def cells(self) -> pd.DataFrame:
+        if self._cells is None:
+            self._cells = pd.DataFrame(self._rows, columns=range(len(self.header)), dtype=str)
+        return self._cells
+
+    def values(self) -> np.ndarray:
+        """The cells as a 2-D object array of str (rows × columns)."""
+        if self._rows is not None:
+            out = np.empty((len(self._rows), len(self.header)), dtype=object)
+            out[...] = self._rows
+            return out
+        return self.cells.to_numpy(dtype=object)
 
 
 def read_text(path: Path) -> str:
@@ -84,8 +104,13 @@ def read_fast_columns(raw: bytes, wanted: dict[str, object],
     """
     if not raw or b'"' in raw or raw[:1] in (b"\r", b"\n", b" ", b"\t", b",", b";"):
         return None
-    if b"\n\n" in raw or b"\n\r\n" in raw or raw.count(b"\r") != raw.count(b"\r\n"):
-        return None  # blank lines or old-Mac line ends: the exact path keeps their line numbers
+    # Blank lines or old-Mac line ends: the exact path keeps their line numbers. Two-byte searches
+    # cost ~1 ms per MB (the first byte is on every line), so they run only where they can matter:
+    # CR checks only if the file holds a CR at all; pyarrow reads a blank line as a row of empty
+    # cells, which is null in any non-string column and rejected below, so the LF-LF search runs
+    # only when every column read is a string.
+    if b"\r" in raw and (b"\n\n" in raw or b"\n\r\n" in raw or raw.count(b"\r") != raw.count(b"\r\n")):
+        return None
     end = raw.find(b"\n")
     header_line = (raw if end < 0 else raw[:end]).decode("utf-8").rstrip("\r")
     try:
@@ -109,6 +134,8 @@ def read_fast_columns(raw: bytes, wanted: dict[str, object],
             wanted[name] = typ
     if len(set(index.values())) != len(index):
         return None  # one column named for two roles: the exact path handles it
+    if all(pa.types.is_string(t) or pa.types.is_large_string(t) for t in wanted.values()) and b"\n\n" in raw:
+        return None
     names = [f"c{j}" for j in range(len(header))]
     try:
         table = pacsv.read_csv(
@@ -212,9 +239,8 @@ def _split_small(body: str, delimiter: str, header: list[str], offset: int) -> C
         rows.append(fields)
     if not rows:
         return None
-    df = pd.DataFrame(rows, columns=range(width), dtype=str)
     lines_no = np.arange(len(rows), dtype=np.int64) + 2 + offset
-    return CsvTable([h.strip() for h in header], df, lines_no, delimiter)
+    return CsvTable([h.strip() for h in header], None, lines_no, delimiter, rows=rows)
 
 
 def _read_exact(path: Path, body: str, delimiter: str, offset: int) -> CsvTable:
@@ -274,6 +300,11 @@ def missing_column_message(key: str, name: str, header: list[str], section: str)
         f"If the file names it differently, map it in study.toml: "
         f'[{section}] columns = {{{key} = "<column name in the file>"}}'
     )
+
+
+def blank_rows(values: np.ndarray) -> np.ndarray:
+    """``is_blank_row`` for the object array of ``CsvTable.values()``."""
+    return np.fromiter((not "".join(row).strip() for row in values), dtype=bool, count=len(values))
 
 
 def is_blank_row(cells: pd.DataFrame) -> np.ndarray:
@@ -391,6 +422,19 @@ def _one_datetime(value: str, utc: bool):
 _HALF_HOUR_US = _HOUR_US // 2
 
 
+def _sample_offsets(w: np.ndarray, tz: str) -> tuple[int, np.ndarray, np.ndarray]:
+    """The zone's UTC offset (µs) every 30 min of wall time from just before the first to just
+    after the last of ``w`` (wall µs): (first sample, offsets, mask of samples neither skipped
+    nor repeated)."""
+    lo, hi = int(w.min()), int(w.max())
+    lo -= lo % _HALF_HOUR_US + _HALF_HOUR_US
+    samples = np.arange(lo, hi + 2 * _HOUR_US, _HALF_HOUR_US, dtype=np.int64)
+    loc = pd.DatetimeIndex(samples.astype("datetime64[us]")).tz_localize(tz, ambiguous="NaT", nonexistent="NaT")
+    utc = loc.as_unit("us").asi8
+    valid = utc != np.iinfo(np.int64).min
+    return lo, samples - utc, valid
+
+
 def _steady_offset_utc(wall: np.ndarray, tz: str) -> np.ndarray | None:
     """UTC µs of wall times when one UTC offset holds over their whole span, else None.
 
@@ -401,18 +445,30 @@ def _steady_offset_utc(wall: np.ndarray, tz: str) -> np.ndarray | None:
     """
     if wall.size == 0:
         return None
-    w = wall.astype("datetime64[us]").astype(np.int64)
-    lo, hi = int(w.min()), int(w.max())
-    lo -= lo % _HALF_HOUR_US + _HALF_HOUR_US
-    samples = np.arange(lo, hi + 2 * _HOUR_US, _HALF_HOUR_US, dtype=np.int64)
-    loc = pd.DatetimeIndex(samples.astype("datetime64[us]")).tz_localize(tz, ambiguous="NaT", nonexistent="NaT")
-    utc = loc.as_unit("us").asi8
-    if (utc == np.iinfo(np.int64).min).any():
-        return None
-    offsets = samples - utc
-    if not (offsets == offsets[0]).all():
+    w = wall.astype("datetime64[us]", copy=False).view(np.int64)
+    _, offsets, valid = _sample_offsets(w, tz)
+    if not valid.all() or not (offsets == offsets[0]).all():
         return None
     return w - offsets[0]
+
+
+def _plain_utc(w: np.ndarray, tz: str, sampled: tuple[int, np.ndarray, np.ndarray] | None = None) -> np.ndarray:
+    """``tz_localize(tz, ambiguous="NaT", nonexistent="NaT")`` of wall µs ``w``, as UTC µs (NaT: int64 min).
+
+    Between two 30-min samples with the same offset, neither skipped nor repeated,
+    no change happens (zones change offset at most once within hours), so
+    wall − offset is the instant; only rows near a change go through pandas.
+    """
+    lo, offsets, valid = sampled if sampled is not None else _sample_offsets(w, tz)
+    k = (w - lo) // _HALF_HOUR_US
+    clean_segment = valid[:-1] & valid[1:] & (offsets[:-1] == offsets[1:])
+    clean = clean_segment[k]
+    out = w - offsets[k]
+    near = np.flatnonzero(~clean)
+    if near.size:
+        local = pd.DatetimeIndex(w[near].astype("datetime64[us]")).tz_localize(tz, ambiguous="NaT", nonexistent="NaT")
+        out[near] = local.as_unit("us").asi8
+    return out
 
 
 def _localize_wall(wall: np.ndarray, lines: np.ndarray, tz: str) -> tuple[np.ndarray, np.ndarray, list[Problem]]:
@@ -424,19 +480,25 @@ def _localize_wall(wall: np.ndarray, lines: np.ndarray, tz: str) -> tuple[np.nda
     read with the offset in force before the gap (a clock that was not changed).
     """
     problems: list[Problem] = []
-    idx = pd.DatetimeIndex(wall)
-    n = len(idx)
-    steady = _steady_offset_utc(wall, tz)
-    if steady is not None:  # the common case: no DST change (or other offset change) within the file
-        return steady, np.ones(n, dtype=bool), problems
-    plain = idx.tz_localize(tz, ambiguous="NaT", nonexistent="NaT").as_unit("us").asi8
-    if not (plain == np.iinfo(np.int64).min).any():  # a change, but no wall time repeated or skipped
-        return plain.copy(), np.ones(n, dtype=bool), problems
-    a = idx.tz_localize(tz, ambiguous=np.ones(n, dtype=bool), nonexistent="NaT").as_unit("us")
-    b = idx.tz_localize(tz, ambiguous=np.zeros(n, dtype=bool), nonexistent="NaT").as_unit("us")
-    ai = a.asi8.copy()
-    bi = b.asi8.copy()
+    n = len(wall)
+    if n == 0:
+        return np.zeros(0, dtype=np.int64), np.ones(0, dtype=bool), problems
+    w = wall.astype("datetime64[us]", copy=False).view(np.int64)
+    sampled = _sample_offsets(w, tz)
+    _, offsets, valid = sampled
+    if valid.all() and (offsets == offsets[0]).all():  # the common case: one offset over the file's span
+        return w - offsets[0], np.ones(n, dtype=bool), problems  # (as _steady_offset_utc)
     nat = np.iinfo(np.int64).min
+    plain = _plain_utc(w, tz, sampled)
+    odd = np.flatnonzero(plain == nat)
+    if not odd.size:  # a change, but no wall time repeated or skipped
+        return plain, np.ones(n, dtype=bool), problems
+    # Skipped or repeated wall times: both readings, element by element, for those rows only.
+    idx = pd.DatetimeIndex(wall[odd])
+    ai = plain.copy()
+    bi = plain.copy()
+    ai[odd] = idx.tz_localize(tz, ambiguous=np.ones(odd.size, dtype=bool), nonexistent="NaT").as_unit("us").asi8
+    bi[odd] = idx.tz_localize(tz, ambiguous=np.zeros(odd.size, dtype=bool), nonexistent="NaT").as_unit("us").asi8
     missing = ai == nat
     early = np.minimum(ai, bi)
     late = np.maximum(ai, bi)

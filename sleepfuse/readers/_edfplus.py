@@ -17,6 +17,7 @@ from __future__ import annotations
 import datetime as dt
 import re
 from dataclasses import dataclass, field
+from itertools import repeat
 from pathlib import Path
 
 import numpy as np
@@ -247,7 +248,118 @@ def parse_tals(block: bytes) -> tuple[list[tuple[float, float | None, list[str]]
 
 
 def read_annotations(path: Path, header: EdfHeader, records: np.ndarray) -> AnnotationSet:
-    """All annotations of every annotation signal plus each record's time-keeping onset."""
+    """All annotations of every annotation signal plus each record's time-keeping onset.
+
+    Bulk path: the TALs (runs of non-NUL bytes inside one data record) of a signal
+    are located with numpy and, when all have the usual shape, read with one regular
+    expression pass; otherwise each TAL goes through ``parse_tals``. Same result as
+    ``read_annotations_careful`` (checked in tests/test_readers_edf_fastpath.py).
+    """
+    indices = header.annotation_indices
+    n = header.n_records
+    if not indices:
+        return AnnotationSet([], np.arange(n) * header.record_duration_s)
+    onsets = np.full(n, np.nan)
+    per_signal: list[tuple[list[Annotation], list[int]]] = []
+    bad = missing_keeper = 0
+    for j, k in enumerate(indices):
+        s = header.signals[k]
+        block = np.ascontiguousarray(records[:, s.offset : s.offset + 2 * s.n_samples])
+        annotations, owners, n_bad, n_missing = _signal_annotations(block, onsets if j == 0 else None)
+        per_signal.append((annotations, owners))
+        bad += n_bad
+        missing_keeper += n_missing
+    if len(per_signal) == 1:
+        annotations = per_signal[0][0]
+    else:  # record by record, then signal by signal, as the careful path reads them
+        pooled = [a for anns, _ in per_signal for a in anns]
+        owner = np.array([r for _, rs in per_signal for r in rs], dtype=np.int64)
+        annotations = [pooled[i] for i in np.argsort(owner, kind="stable").tolist()]
+    return AnnotationSet(annotations, onsets, _annotation_notes(bad, missing_keeper))
+
+
+_NUMBER = rb"[+-]?+(?:\d++(?:\.\d*+)?+|\.\d++)"  # possessive: a TAL never needs backtracking
+# One whole TAL (between NULs) of the usual shape. Every TAL this matches is read by
+# parse_tals to the same onset, duration and texts; any other TAL is left to parse_tals.
+_PLAIN_TAL = re.compile(
+    rb"\x00(" + _NUMBER + rb")(?:\x15(" + _NUMBER + rb")?+)?+\x14((?:[^\x14\x00]*+\x14)*+)(?=\x00)"
+)
+
+
+def _signal_annotations(
+    block: np.ndarray, keeper_onsets: np.ndarray | None
+) -> tuple[list[Annotation], list[int], int, int]:
+    """Annotations of one annotation signal (bytes, shape n_records × n_bytes), the data record
+    of each, the count of malformed TALs and of records without a time-keeping TAL. For the
+    first annotation signal (``keeper_onsets`` given) each record's time-keeping onset is stored."""
+    n, width = block.shape
+    padded = np.zeros((n, width + 1), dtype=np.uint8)  # a NUL after every record
+    padded[:, :width] = block
+    flat = padded.ravel()
+    filled = flat != 0
+    after_tal = np.zeros_like(filled)
+    after_tal[1:] = filled[:-1]
+    starts = np.flatnonzero(filled & ~after_tal)
+    owner = starts // (width + 1)
+    joined = b"\x00" + flat[filled | after_tal].tobytes()  # NUL, TAL, NUL, TAL, ..., NUL
+    groups = _PLAIN_TAL.findall(joined)
+    if len(groups) == len(starts):
+        tals = None
+    else:
+        tals, keep = [], []
+        for i, chunk in enumerate(joined[1:-1].split(b"\x00") if len(starts) else []):
+            found, _ = parse_tals(chunk)  # one TAL at most: the chunk holds no NUL
+            if found:
+                tals.append(found[0])
+                keep.append(i)
+        bad = len(starts) - len(tals)
+        owner = owner[keep]
+        groups = [(None, None, None)] * len(tals)
+    count = len(groups)
+    if count == 0:
+        return [], [], len(starts), 0
+    first = np.zeros(count, dtype=bool)
+    if keeper_onsets is not None:
+        first[0] = True
+        first[1:] = owner[1:] != owner[:-1]
+    firsts = np.flatnonzero(first).tolist()
+    if tals is None:
+        onset_raw, _, rest = zip(*groups)
+        # A first TAL whose first text is empty is the time-keeping TAL; b"" and b"\x14" hold no text.
+        keeper = first & np.fromiter(map(bytes.startswith, rest, repeat(b"\x14")), dtype=bool, count=count)
+        kept = np.flatnonzero(keeper).tolist()
+        if kept:
+            keeper_onsets[owner[kept]] = list(map(float, np.array(onset_raw, dtype=object)[kept]))
+        bad = 0
+        carriers = np.flatnonzero(np.fromiter(map(len, rest), dtype=np.intp, count=count) > 1).tolist()
+    else:
+        kept = [i for i in firsts if tals[i][2] and tals[i][2][0] == ""]
+        if kept:
+            keeper_onsets[owner[kept]] = [tals[i][0] for i in kept]
+        carriers = range(count)
+    kept_set = set(kept)
+    annotations: list[Annotation] = []
+    owners: list[int] = []
+    owner_list = owner.tolist()
+    for i in carriers:
+        if tals is None:
+            onset_i, duration_raw, rest_i = groups[i]
+            onset = float(onset_i)
+            duration = float(duration_raw) if duration_raw else None
+            texts = [p.decode("utf-8", errors="replace") for p in rest_i[:-1].split(b"\x14")]
+        else:
+            onset, duration, texts = tals[i]
+        if i in kept_set:
+            texts = texts[1:]
+        for text in texts:
+            if text != "":
+                annotations.append(Annotation(onset, duration, text))
+                owners.append(owner_list[i])
+    return annotations, owners, bad, len(firsts) - len(kept)
+
+
+def read_annotations_careful(path: Path, header: EdfHeader, records: np.ndarray) -> AnnotationSet:
+    """Reference path of ``read_annotations``: ``parse_tals`` record by record, signal by signal."""
     indices = header.annotation_indices
     n = header.n_records
     onsets = np.full(n, np.nan)
@@ -272,12 +384,16 @@ def read_annotations(path: Path, header: EdfHeader, records: np.ndarray) -> Anno
                     else:
                         missing_keeper += 1
                 annotations.extend(Annotation(onset, duration, text) for text in texts if text != "")
+    return AnnotationSet(annotations, onsets, _annotation_notes(bad, missing_keeper))
+
+
+def _annotation_notes(bad: int, missing_keeper: int) -> list[str]:
     notes = []
     if bad:
         notes.append(f"malformed annotation lists (TALs) skipped: {bad}")
     if missing_keeper:
         notes.append(f"data records without the EDF+ time-keeping annotation: {missing_keeper}")
-    return AnnotationSet(annotations, onsets, notes)
+    return notes
 
 
 def physical_samples(path: Path, header: EdfHeader, records: np.ndarray, index: int) -> np.ndarray:

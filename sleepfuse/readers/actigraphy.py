@@ -141,8 +141,8 @@ def _read_plain(raw: bytes, names: dict[str, str], tz: str):
             if not (ones | (text == "0")).all():  # "true", " 1", "00", blanks...: the exact path's rules
                 return None
             values[k] = ones
-    wall = cols[names["timestamp"]].astype("datetime64[us]")
-    lines = np.arange(wall.size, dtype=np.int64) + 2
+    wall = cols[names["timestamp"]].astype("datetime64[us]", copy=False)
+    lines = np.arange(2, wall.size + 2, dtype=np.int64)
     utc, _, problems = _localize_wall(wall, lines, tz)
     return header, utc, lines, values, problems
 
@@ -211,6 +211,9 @@ def _drop_isolated_outliers(instants, lines):
     if instants.size < 3:
         return None, []
     day = 86400 * _US
+    steps = np.diff(instants)
+    if steps.max() <= day and steps.min() >= -day:  # no step over a day: no row can be odd
+        return None, []
     prev_gap = np.abs(instants[1:-1] - instants[:-2])
     next_gap = np.abs(instants[2:] - instants[1:-1])
     bridge = np.abs(instants[2:] - instants[:-2])
@@ -250,6 +253,8 @@ def _place_on_grid(instants: np.ndarray, lines: np.ndarray, epoch_s: int, tz: st
     """
     problems: list[Problem] = []
     step = epoch_s * _US
+    if instants.size and (np.diff(instants) == step).all():  # a regular file: row i is epoch i, nothing to report
+        return np.arange(instants.size, dtype=np.int64), np.arange(instants.size), problems
     rel = instants - instants[0]
     slots = (rel + step // 2) // step
     off = rel - slots * step
@@ -289,13 +294,15 @@ def _place_on_grid(instants: np.ndarray, lines: np.ndarray, epoch_s: int, tz: st
             f"epoch ({line_phrase(lines[snapped])})",
         )
 
-    valid = np.flatnonzero(slots >= 0)
-    valid_slots = slots[valid]
-    if valid_slots.size and (np.diff(valid_slots) > 0).all():  # in order, no duplicates: np.unique's answer
-        uniq, first_pos = valid_slots, np.arange(valid_slots.size)
+    valid = np.flatnonzero(slots >= 0) if before.size else np.arange(slots.size)
+    valid_slots = slots[valid] if before.size else slots
+    steps = np.diff(valid_slots)
+    if valid_slots.size and (steps > 0).all():  # in order, no duplicates: np.unique's answer
+        uniq, first = valid_slots, valid
     else:
         uniq, first_pos = np.unique(valid_slots, return_index=True)
-    first = valid[first_pos]
+        first = valid[first_pos]
+        steps = np.diff(uniq)
     if first.size < valid.size:
         owner = np.full(int(uniq[-1]) + 1, -1, dtype=np.int64)
         owner[uniq] = first
@@ -307,7 +314,7 @@ def _place_on_grid(instants: np.ndarray, lines: np.ndarray, epoch_s: int, tz: st
             f"{dup.size} duplicate epochs; the first row of each kept ({line_phrase(lines[dup])})",
         )
 
-    jump = np.flatnonzero(np.diff(uniq) > 1)
+    jump = np.flatnonzero(steps > 1)  # steps == np.diff(uniq)
     if jump.size:
         messages, times = [], []
         for k in jump[: MAX_DETAILED + 1]:
@@ -320,7 +327,7 @@ def _place_on_grid(instants: np.ndarray, lines: np.ndarray, epoch_s: int, tz: st
                 f"({missing} missing epoch(s), {missing * epoch_s / 60:g} min) between line {lines[a]} and line {lines[b]}"
             )
             times.append(gap_start)
-        total = int((np.diff(uniq)[jump] - 1).sum())
+        total = int((steps[jump] - 1).sum())
         problems += _report(messages, times, f"{jump.size} gaps in all, {total} missing epochs (counts NaN)")
     return slots, first, problems
 

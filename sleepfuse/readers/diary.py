@@ -13,14 +13,15 @@ import datetime as dt
 import math
 import re
 from pathlib import Path
+from zoneinfo import ZoneInfo
 
 import pandas as pd
 
 from ..config import DIARY_COLUMN_KEYS
 from ..errors import ReadError
 from ..records import Diary, DiaryEntry, Problem
-from ..timeutil import clock_on_night, localize, zone
-from ._csvtext import find_column, is_blank_row, missing_column_message, ragged_problems, read_table
+from ..timeutil import NOON, clock_on_night, localize, zone
+from ._csvtext import blank_rows, find_column, missing_column_message, ragged_problems, read_table
 
 DIARY_DEFAULT_COLUMNS = {k: k for k in DIARY_COLUMN_KEYS}
 TIME_KEYS = ("bedtime", "tried_to_sleep", "final_awakening", "out_of_bed")
@@ -56,6 +57,7 @@ def read_diary(
         zone(tz)
     except ValueError as exc:
         raise ReadError(path, str(exc)) from None
+    clock = _ClockReader(tz)
     names = dict(DIARY_DEFAULT_COLUMNS)
     names.update(columns or {})
     table = read_table(path)
@@ -76,13 +78,13 @@ def read_diary(
             if key in col and col[key] is None and key != "night":
                 problems.append(Problem("warning", f"column {names[key]!r} (for {key}, set in study.toml) is not in the file"))
 
-    filled = ~is_blank_row(table.cells)
-    cells = table.cells[filled]
+    values = table.values()
+    filled = ~blank_rows(values)
+    records = values[filled]
     lines = table.lines[filled]
-    if len(cells) == 0:
+    if len(records) == 0:
         raise ReadError(path, "the file has a header but no diary rows")
 
-    records = cells.to_numpy(dtype=object)
     entries: list[DiaryEntry] = []
     seen: dict[tuple[str, dt.date], int] = {}
     for values, line in zip(records, lines):
@@ -103,7 +105,7 @@ def read_diary(
             text = cell.get(key, "")
             if not text:
                 continue
-            value, note = _parse_time(text, night, tz)
+            value, note = _parse_time(text, night, tz, clock)
             if value is None:
                 problems.append(
                     Problem(
@@ -168,7 +170,40 @@ def _parse_night(text: str) -> dt.date | None:
         return None
 
 
-def _parse_time(text: str, night: dt.date, tz: str) -> tuple[pd.Timestamp | None, str]:
+class _ClockReader:
+    """Diary clock times on a night in one zone, as ``clock_on_night`` places them, with their DST note.
+
+    Works on zoneinfo datetimes (PEP 495) instead of one pandas conversion per
+    cell; gives ``clock_on_night`` and ``_dst_note``'s results exactly
+    (tests/test_readers_diary.py compares them across DST changes)."""
+
+    def __init__(self, tz: str):
+        self.tz = tz
+        info = localize(dt.datetime(2000, 1, 1), tz).tzinfo  # the tzinfo pandas gives ``tz``
+        self.info = info if isinstance(info, ZoneInfo) or info is dt.timezone.utc else None
+
+    def __call__(self, clock: dt.time, night: dt.date) -> tuple[pd.Timestamp, str]:
+        if self.info is None:
+            value = clock_on_night(clock, night, self.tz)
+            return value, _dst_note(value, clock)
+        day = night if clock >= NOON else night + dt.timedelta(days=1)
+        first = self._utc(dt.datetime.combine(day, clock), 0)
+        local = first.astimezone(self.info)
+        value = pd.Timestamp(local)
+        if local.time() != clock:
+            return value, f"does not exist on that day (spring-forward gap); read as {value:%H:%M%z}"
+        if self._utc(local.replace(tzinfo=None), 1) != first:
+            return value, f"occurs twice on that day (autumn change); read as the first, {value:%H:%M%z}"
+        return value, ""
+
+    def _utc(self, wall: dt.datetime, fold: int) -> dt.datetime:
+        """The instant (UTC) of wall time ``wall``; ``fold`` as in PEP 495."""
+        return wall.replace(tzinfo=self.info, fold=fold).astimezone(dt.timezone.utc).replace(fold=0)
+
+
+def _parse_time(
+    text: str, night: dt.date, tz: str, clock_reader: _ClockReader | None = None
+) -> tuple[pd.Timestamp | None, str]:
     """A diary clock time (noon rule) or ISO timestamp as a tz-aware local Timestamp, with a note if odd."""
     m = _CLOCK_RE.match(text)
     if m:
@@ -176,6 +211,8 @@ def _parse_time(text: str, night: dt.date, tz: str) -> tuple[pd.Timestamp | None
         if hour > 23 or minute > 59 or second > 59:
             return None, ""
         clock = dt.time(hour, minute, second)
+        if clock_reader is not None:
+            return clock_reader(clock, night)
         value = clock_on_night(clock, night, tz)
         return value, _dst_note(value, clock)
     if not _DATE_RE.match(text):
