@@ -278,8 +278,6 @@ def run_batch(
     started = dt.datetime.now(dt.timezone.utc)
     config = config if config is not None else load_config(study)
     qc = QCLog()
-    if config.study.timezone_from_machine:
-        qc.info(f"study.toml gives no [study] timezone; using this machine's zone {config.timezone}", file="study.toml")
     decisions = load_decisions(study)
     jobs, files = plan_jobs(config, qc)
     from .cache import run_cached

@@ -15,9 +15,8 @@ import pandas as pd
 
 from .config import StudyConfig, load_config
 from .qc import QCEntry, QCLog
-from .records import DiaryEntry
 from .scoring.nights import ScoredParticipant, night_table, rhythm_table, score_participant
-from .study import SOURCES, discover, load_participant, read_combined_diaries
+from .study import ParticipantJob, load_participant, plan_jobs  # noqa: F401  (re-exported)
 
 
 @dataclass
@@ -30,27 +29,6 @@ class StudyResult:
     qc: QCLog
     participants: dict[str, ScoredParticipant] = field(default_factory=dict)
     files: list[Path] = field(default_factory=list)
-
-
-@dataclass(frozen=True)
-class ParticipantJob:
-    """Everything one worker needs to process one participant."""
-
-    participant: str
-    files: dict[str, list[Path]]
-    extra_diary: tuple[DiaryEntry, ...] = ()
-
-
-def plan_jobs(config: StudyConfig, qc: QCLog) -> tuple[list[ParticipantJob], list[Path]]:
-    """Discover the study's files and make one job per participant."""
-    found = discover(config, qc)
-    combined = read_combined_diaries(config, found.combined_diaries, qc)
-    ids = sorted(set(found.by_participant) | set(combined))
-    jobs = [
-        ParticipantJob(pid, found.by_participant.get(pid, {s: [] for s in SOURCES}), tuple(combined.get(pid, ())))
-        for pid in ids
-    ]
-    return jobs, found.all_files
 
 
 def process_participant(config: StudyConfig, job: ParticipantJob) -> tuple[ScoredParticipant, list[QCEntry]]:
@@ -75,8 +53,6 @@ def run_study(
     """Score a whole study in this process, participant by participant."""
     config = config if config is not None else load_config(root)
     qc = QCLog()
-    if config.study.timezone_from_machine:
-        qc.info(f"study.toml gives no [study] timezone; using this machine's zone {config.timezone}", file="study.toml")
     jobs, files = plan_jobs(config, qc)
     scored: list[ScoredParticipant] = []
     for i, job in enumerate(jobs):

@@ -91,6 +91,8 @@ def sha256_of(path: Path, chunk: int = 1 << 20) -> str:
 
 def discover(config: StudyConfig, qc: QCLog) -> StudyFiles:
     """Find the study's files by the folder contract and assign each to a participant."""
+    if config.study.timezone_from_machine:
+        qc.info(f"study.toml gives no [study] timezone; using this machine's zone {config.timezone}", file="study.toml")
     root = config.root
     patterns = {"psg": config.files.psg, "actigraphy": config.files.actigraphy, "diary": config.files.diary}
     by_participant: dict[str, dict[str, list[Path]]] = {}
@@ -250,6 +252,27 @@ def read_combined_diaries(config: StudyConfig, paths: Iterable[Path], qc: QCLog)
     return out
 
 
+@dataclass(frozen=True)
+class ParticipantJob:
+    """Everything one worker needs to process one participant."""
+
+    participant: str
+    files: dict[str, list[Path]]
+    extra_diary: tuple[DiaryEntry, ...] = ()
+
+
+def plan_jobs(config: StudyConfig, qc: QCLog) -> tuple[list[ParticipantJob], list[Path]]:
+    """Discover the study's files and make one job per participant."""
+    found = discover(config, qc)
+    combined = read_combined_diaries(config, found.combined_diaries, qc)
+    ids = sorted(set(found.by_participant) | set(combined))
+    jobs = [
+        ParticipantJob(pid, found.by_participant.get(pid, {s: [] for s in SOURCES}), tuple(combined.get(pid, ())))
+        for pid in ids
+    ]
+    return jobs, found.all_files
+
+
 def load_study(
     root: str | Path,
     *,
@@ -261,18 +284,10 @@ def load_study(
     root = Path(root)
     qc = qc if qc is not None else QCLog()
     config = config if config is not None else load_config(root)
-    if config.study.timezone_from_machine:
-        qc.info(
-            f"study.toml gives no [study] timezone; using this machine's zone {config.timezone}",
-            file="study.toml",
-        )
-    found = discover(config, qc)
-    combined = read_combined_diaries(config, found.combined_diaries, qc)
-    ids = sorted(set(found.by_participant) | set(combined))
+    jobs, files = plan_jobs(config, qc)
     participants: dict[str, ParticipantRecords] = {}
-    for i, pid in enumerate(ids):
+    for i, job in enumerate(jobs):
         if progress:
-            progress(pid, i, len(ids))
-        files = found.by_participant.get(pid, {s: [] for s in SOURCES})
-        participants[pid] = load_participant(config, pid, files, qc, combined.get(pid, ()))
-    return Study(config=config, participants=participants, qc=qc, files=found.all_files)
+            progress(job.participant, i, len(jobs))
+        participants[job.participant] = load_participant(config, job.participant, job.files, qc, job.extra_diary)
+    return Study(config=config, participants=participants, qc=qc, files=files)

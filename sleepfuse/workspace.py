@@ -15,7 +15,7 @@ from __future__ import annotations
 import math
 import threading
 from collections import OrderedDict
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -75,9 +75,6 @@ class StudyLoader:
         self.root = Path(root)
         self.config = config if config is not None else load_config(self.root)
         self.qc = QCLog()
-        if self.config.study.timezone_from_machine:
-            self.qc.info(f"study.toml gives no [study] timezone; using this machine's zone {self.config.timezone}",
-                         file="study.toml")
         jobs, self.files = plan_jobs(self.config, self.qc)
         self.jobs = {j.participant: j for j in jobs}
         self.scored: list[ScoredParticipant] = []

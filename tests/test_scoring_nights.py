@@ -7,9 +7,8 @@ import datetime as dt
 import numpy as np
 import pandas as pd
 
-from sleepfuse.config import build_config
 from sleepfuse.pipeline import run_study
-from sleepfuse.records import ActigraphyRecord, Hypnogram
+from sleepfuse.records import Hypnogram
 from sleepfuse.scoring.opportunity import (
     RULE_DETECTOR,
     RULE_LIGHTS,

@@ -22,7 +22,7 @@ import pandas as pd
 from sleepfuse.explore.columns import ColumnSet, PreparedData, column_sets, columns_by_pattern, prepare
 from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures
 
-from sleepfuse.explore.names import EXPLORATORY_CAUTION  # noqa: E402  (re-exported)
+from sleepfuse.explore.names import EXPLORATORY_CAUTION  # noqa: E402,F401  (re-exported)
 MODEL_COLUMNS = ["block", "set", "family", "K", "loglik", "n_params", "BIC", "converged", "n_iter", "message"]
 MEMBERSHIP_COLUMNS = ["participant", "block", "set", "family", "K", "cluster", "probability", "reason"]
 
