@@ -1,6 +1,6 @@
 """Wall-clock CSV timestamps to UTC: the sampled-offset shortcut equals pandas' tz_localize row by row.
 
-``_csvtext._plain_utc`` reads each wall time with the zone offset sampled every
+``_csvtime._plain_utc`` reads each wall time with the zone offset sampled every
 30 min and asks pandas only near an offset change; it must equal
 ``DatetimeIndex.tz_localize(tz, ambiguous="NaT", nonexistent="NaT")`` (pandas,
 with the IANA tz database via zoneinfo) for every row, including times in the
@@ -13,7 +13,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from sleepfuse.readers._csvtext import _localize_wall, _plain_utc
+from sleepfuse.readers._csvtime import _localize_wall, _plain_utc
 
 NAT = np.iinfo(np.int64).min
 

@@ -19,17 +19,16 @@ from ..records import ActigraphyRecord, Problem
 from ..timeutil import zone
 from ._csvtext import (
     MAX_DETAILED,
-    _localize_wall,
     find_column,
     is_blank_row,
     line_phrase,
     missing_column_message,
-    parse_instants,
     ragged_problems,
     read_fast_columns,
     read_raw,
     read_table,
 )
+from ._csvtime import _localize_wall, parse_instants
 
 ACTIGRAPHY_DEFAULT_COLUMNS = {"timestamp": "timestamp", "counts": "counts", "off_wrist": "off_wrist", "marker": "marker"}
 ALLOWED_EPOCHS_S = (15, 30, 60)
