@@ -93,9 +93,11 @@ class _Notes:
     def __init__(self, qc: QCLog, row: dict, file: str):
         self.qc, self.row, self.file = qc, row, file
 
-    def __call__(self, severity: str, message: str, *, exclude: bool = False) -> None:
-        self.qc.add(severity, f"{self.row['source']}: {message}", file=self.file,
-                    participant=self.row["participant"], night=self.row["night"])
+    def __call__(self, severity: str, message: str, *, exclude: bool = False, logged: bool = False) -> None:
+        """``logged``: the reader already put this problem in the QC log; note it on the row only."""
+        if not logged:
+            self.qc.add(severity, f"{self.row['source']}: {message}", file=self.file,
+                        participant=self.row["participant"], night=self.row["night"])
         self.row["qc"] = f"{self.row['qc']}; {message}" if self.row["qc"] else message
         if exclude:
             self.row["included"] = False
@@ -139,7 +141,7 @@ def score_psg(config: StudyConfig, participant: str, h: Hypnogram, qc: QCLog, ou
         row[k] = params[k]
     if h.unknown_labels:
         labels = ", ".join(f"{k!r} ({v} epochs)" for k, v in h.unknown_labels.items())
-        note("warning", f"unknown stage labels counted as unscored: {labels}")
+        note("warning", f"unknown stage labels counted as unscored: {labels}", logged=True)
     _check_invalid(row, params, note, config)
     out.rows.append(row)
 
