@@ -30,7 +30,7 @@ from .fusion.pairs import agreement_table, paired_nights, shared_parameters
 from .pipeline import ParticipantJob, StudyResult, plan_jobs, process_participant
 from .qc import QCEntry, QCLog
 from .review import Decision, apply_decisions, effective, load_decisions, record_decision
-from .scoring.nights import SOURCE_PARAMETERS, ScoredParticipant, night_table
+from .scoring.nights import SOURCE_PARAMETERS, ScoredParticipant, night_table, rhythm_table
 
 SOURCES = ("psg", "actigraphy", "diary")
 SOURCE_LETTER = {"psg": "P", "actigraphy": "A", "diary": "D"}
@@ -161,6 +161,7 @@ class Workspace:
         for s in with_detail if keep_detail else with_detail[-DETAIL_CACHE:]:
             self._detail[s.participant] = s
         self.base_nights = night_table(scored)  # before review decisions
+        self.rhythm = rhythm_table(scored)  # IS, IV, M10, L5, RA per participant (cached participants too)
         self._problems = self._count_problems(qc.entries)
         self.refresh()
 
@@ -296,6 +297,12 @@ class Workspace:
         return pd.DataFrame({"participant": paired["participant"].to_numpy(object)[ok],
                              "night": paired["night"].to_numpy(object)[ok],
                              "mean": ((t + r) / 2)[ok], "difference": (t - r)[ok]})
+
+    def matrix(self, *, min_nights: int = 1) -> pd.DataFrame:
+        """The participant × feature matrix (as matrix.csv of ``sleepfuse batch``), review decisions honoured."""
+        from .fusion.matrix import participant_matrix
+
+        return participant_matrix(self.nights, self.rhythm, min_nights=min_nights, participants=self.participants)
 
     def agreement_row(self, test: str, reference: str, parameter: str) -> dict:
         a = self.agreement

@@ -15,6 +15,7 @@ from ..pipeline import StudyResult
 from ..workspace import PairChoice, Workspace
 from .screens.agreement import AgreementScreen
 from .screens.disagreements import DisagreementScreen
+from .screens.explore import ExploreScreen
 from .screens.export import ExportScreen
 from .screens.help import HelpScreen
 from .screens.night import NightScreen
@@ -23,7 +24,7 @@ from .screens.review import ReviewDialog
 
 
 class SleepfuseApp(App):
-    """Overview first; night, disagreements, agreement, export and help are pushed on top."""
+    """Overview first; night, disagreements, agreement, clusters, export and help are pushed on top."""
 
     TITLE = "sleepfuse"
     ENABLE_COMMAND_PALETTE = False
@@ -59,6 +60,10 @@ class SleepfuseApp(App):
         if self._loaded():
             self.push_screen(AgreementScreen())
 
+    def action_clusters(self) -> None:
+        if self._loaded():
+            self.push_screen(ExploreScreen())
+
     def action_export(self) -> None:
         self.push_screen(ExportScreen(self.study, self.export_dir))
 
@@ -74,6 +79,7 @@ class SleepfuseApp(App):
             ("Night view", NightScreen.BINDINGS, [("↑ ↓", "scroll the parameter table")]),
             ("Disagreements", DisagreementScreen.BINDINGS, [("↑ ↓", "move in the ranking")]),
             ("Agreement", AgreementScreen.BINDINGS, []),
+            ("Clusters (c)", ExploreScreen.BINDINGS, ExploreScreen.HELP_KEYS),
             ("Review dialog (x, i)", ReviewDialog.BINDINGS,
              [("enter", "save the decision")]),
             ("Export (e)", ExportScreen.BINDINGS, [("enter", "start the export into the folder typed")]),

@@ -58,3 +58,19 @@ class ExportFinished(Message):
     def __init__(self, written: list[Path], error: str = "") -> None:
         super().__init__()
         self.written, self.error = written, error
+
+
+class ClustersFitted(Message):
+    """A clustering preview run finished (``run`` tells stale results from the latest)."""
+
+    def __init__(self, run: int, result) -> None:
+        super().__init__()
+        self.run, self.result = run, result
+
+
+class ClustersFailed(Message):
+    """A clustering preview run could not start (e.g. no column matches the patterns typed)."""
+
+    def __init__(self, run: int, error: str) -> None:
+        super().__init__()
+        self.run, self.error = run, error

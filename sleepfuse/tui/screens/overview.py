@@ -57,6 +57,8 @@ class OverviewScreen(Screen):
         Binding("enter", "open_night", "Night", priority=True, tooltip="open the night view of the highlighted participant and night"),
         Binding("d", "app.disagreements", "Disagree", tooltip="nights ranked by how far two instruments disagree"),
         Binding("a", "app.agreement", "Agree", tooltip="Bland–Altman agreement of a pair of instruments on one parameter"),
+        Binding("c", "app.clusters", "Clust",
+                tooltip="exploratory clustering preview of the participant × feature matrix"),
         Binding("x", "exclude", "Excl", tooltip="exclude this night for one instrument, with a reason"),
         Binding("i", "include", "Incl", tooltip="re-include an excluded night for one instrument"),
         Binding("e", "app.export", "Export", tooltip="write every output table (same as sleepfuse batch)"),

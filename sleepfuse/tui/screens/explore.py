@@ -1,0 +1,282 @@
+"""Clusters: an exploratory clustering preview of the participant × feature matrix.
+
+One instrument block (``b`` cycles diary, actigraphy, psg, all) or the columns
+typed in the field (names or glob patterns, comma-separated; ``/`` goes there,
+Enter fits) is fitted with Gaussian and skew-normal mixtures for K = 1..K max
+(``+``/``−``), chosen by BIC (sleepfuse.explore). The screen shows the BIC
+table with each model's message, the preferred model, the cluster sizes and
+who was left out. The caution that clustering is exploratory stays in view.
+Fitting runs in a worker that posts a message; it never touches widgets.
+"""
+
+from __future__ import annotations
+
+import math
+
+from rich.text import Text
+from textual import work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Input, Static
+
+from ...explore.columns import BLOCKS
+from ...explore.names import EXPLORATORY_CAUTION, FAMILIES
+from ..messages import ClustersFailed, ClustersFitted
+from ..widgets.appbar import AppBar
+from . import tcss
+
+KMAX_RANGE = (1, 6)
+KMAX_DEFAULT = 3
+STARTS = 4  # few seeded EM starts: a quick preview (sleepfuse explore defaults to 10)
+DEFAULT_BLOCK = "all"  # as sleepfuse explore without --blocks
+MODEL_COLUMNS = (("family", 10), ("K", 2), ("loglik", 9), ("n_par", 5), ("BIC", 9), ("message", 30))
+
+
+def _num(v, digits: int = 1) -> str:
+    try:
+        v = float(v)
+    except (TypeError, ValueError):
+        return "–"
+    return f"{v:.{digits}f}" if math.isfinite(v) else "–"
+
+
+def model_rows(models) -> list[list]:
+    """DataTable rows of the BIC table (family, K, loglik, free parameters, BIC, message)."""
+    rows = []
+    for r in models.itertuples(index=False):
+        rows.append([r.family, Text(str(r.K), justify="right"), Text(_num(r.loglik), justify="right"),
+                     Text(str(r.n_params), justify="right"), Text(_num(r.BIC), justify="right"),
+                     Text(r.message or "fitted", style="yellow" if r.message else "green")])
+    return rows
+
+
+def preferred_line(block) -> Text:
+    """The BIC-preferred model, or why nothing could be fitted."""
+    best = block.preferred
+    t = Text(" ")
+    if best is None:
+        t.append("no model could be fitted", style="bold red")
+        t.append(" — ↑ ↓ read each model's message below")
+        return t
+    t.append(f"preferred by BIC: {best.family} K={best.n_components}", style="bold")
+    t.append(f" (BIC {_num(best.bic)})")
+    if not best.converged:
+        t.append(" not converged", style="bold yellow")
+    if best.n_components == 1:
+        t.append(" — one group: no subgroups at this K max", style="dim")
+    else:
+        t.append(" — a hypothesis to test on new participants", style="yellow")
+    return t
+
+
+def sizes_line(block) -> Text:
+    """Participants per cluster (highest posterior) and the expected count (sum of posteriors)."""
+    sizes = block.cluster_sizes
+    t = Text()
+    t.append(" cluster sizes ", style="bold")
+    if sizes.empty:
+        t.append("– (no model fitted)", style="dim")
+        return t
+    for r in sizes.itertuples(index=False):
+        t.append(f" {r.cluster}: {r.n_assigned} (expected {r.expected:.1f}, weight {r.weight:.2f}) ")
+    return t
+
+
+def left_out_line(block) -> Text:
+    """How many participants were left out for missing values, and the first reason."""
+    excluded = block.data.excluded
+    n_in = len(block.data.participants)
+    t = Text()
+    t.append(f" {n_in} complete participant(s), ", style="bold")
+    if excluded.empty:
+        t.append("none left out")
+        return t
+    t.append(f"{len(excluded)} left out", style="bold yellow")
+    first = excluded.iloc[0]
+    t.append(f": {first['participant']} {first['reason']}" + (" …" if len(excluded) > 1 else ""))
+    return t
+
+
+def notes_text(block) -> str:
+    """The run's notes (dropped columns, too few participants per column), in the screen's words."""
+    return " ".join(n.replace("; consider fewer columns with --columns", "; type fewer columns (/)")
+                    for n in block.notes)
+
+
+class ExploreScreen(Screen):
+    """Exploratory clustering preview: BIC table, preferred model, cluster sizes, left-out participants."""
+
+    CSS_PATH = tcss("explore")
+    BINDINGS = [
+        Binding("b", "next_block", "Block", tooltip="next instrument block: diary, actigraphy, psg, all"),
+        Binding("plus,k", "kmax(1)", "K max+", key_display="+", tooltip="try one more cluster (K max up to 6)"),
+        Binding("minus,K", "kmax(-1)", "K max−", key_display="−", tooltip="try one cluster fewer"),
+        Binding("slash", "edit_columns", "Columns", key_display="/",
+                tooltip="type column names or glob patterns, comma-separated; Enter fits them"),
+        Binding("escape,q", "back", "Back", key_display="q",
+                tooltip="back to the overview (Esc in the column field: back to the table)"),
+    ]
+    HELP_KEYS = [("enter", "in the column field: fit the columns typed (empty: back to the block)"),
+                 ("↑ ↓", "move in the models table; the line below shows the whole message")]
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.block = DEFAULT_BLOCK
+        self.columns = ""  # typed names or patterns; when set, they are fitted instead of the block
+        self.kmax = KMAX_DEFAULT
+        self.run = 0
+        self.running = False
+        self.result = None
+        self.error = ""
+        self.version = -1
+        self._matrix = None
+
+    def compose(self) -> ComposeResult:
+        yield AppBar(self.app.study_name, "clusters")
+        yield Static(EXPLORATORY_CAUTION, id="caution")
+        yield Static("", id="choice")
+        yield Input(placeholder="columns or patterns, e.g. psg_*_mean,diary_sol_min_mean (/ then Enter)",
+                    id="columns")
+        yield Static("", id="status")
+        yield DataTable(id="models", cursor_type="row", zebra_stripes=True)
+        yield Static("", id="detail")
+        yield Static("", id="sizes")
+        yield Static("", id="left-out")
+        yield Static("", id="notes")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        table = self.query_one("#models", DataTable)
+        for label, width in MODEL_COLUMNS:
+            table.add_column(label, width=width, key=label)
+        table.focus()
+        self.start()
+
+    def on_screen_resume(self) -> None:
+        if self.app.workspace.version != self.version:
+            self.start()
+
+    # --- running ------------------------------------------------------------------------
+    def matrix(self):
+        ws = self.app.workspace
+        if self._matrix is None or ws.version != self.version:
+            self._matrix, self.version = ws.matrix(), ws.version
+        return self._matrix
+
+    def start(self) -> None:
+        """Fit the current choice in the worker (a newer run makes older results stale)."""
+        self.run += 1
+        self.running = True
+        self._show_choice()
+        what = "the columns typed" if self.columns else f"block {self.block}"
+        self.query_one("#status", Static).update(
+            Text(f" fitting {', '.join(FAMILIES)} mixtures, K = 1..{self.kmax}, on {what} …", style="italic"))
+        self.fit(self.run, self.matrix(), self.columns or None, None if self.columns else self.block, self.kmax)
+
+    @work(thread=True, exclusive=True, exit_on_error=False)
+    def fit(self, run: int, matrix, columns: str | None, blocks: str | None, kmax: int) -> None:
+        """The clustering preview off the interface thread; posts ClustersFitted or ClustersFailed."""
+        from ...errors import ConfigError
+        from ...explore.selection import explore
+
+        try:
+            result = explore(matrix, columns=columns, blocks=blocks, kmax=kmax, starts=STARTS, seed=0)
+        except ConfigError as exc:
+            self.post_message(ClustersFailed(run, f"columns {exc.value!r} cannot be used: expected {exc.allowed}"))
+        except Exception as exc:  # a failed fit is reported on screen, never a crash
+            self.post_message(ClustersFailed(run, f"{type(exc).__name__}: {exc}"))
+        else:
+            self.post_message(ClustersFitted(run, result))
+
+    def on_clusters_fitted(self, message: ClustersFitted) -> None:
+        if message.run != self.run:
+            return
+        self.running, self.result, self.error = False, message.result, ""
+        self._show_result()
+
+    def on_clusters_failed(self, message: ClustersFailed) -> None:
+        if message.run != self.run:
+            return
+        self.running, self.result, self.error = False, None, message.error
+        self.query_one("#status", Static).update(Text(f" {message.error}", style="bold red"))
+        self.notify(message.error, title="clusters not fitted", severity="error")
+        self.query_one("#models", DataTable).clear()
+        for name in ("#detail", "#sizes", "#left-out", "#notes"):
+            self.query_one(name, Static).update("")
+
+    # --- drawing ------------------------------------------------------------------------
+    def _show_choice(self) -> None:
+        t = Text(" ")
+        if self.columns:
+            t.append("columns typed", style="bold")
+            t.append(" (b: blocks)")
+        else:
+            t.append(f"block {self.block}", style="bold")
+            t.append(" (b)")
+        t.append(f" · K max {self.kmax} (+ −) · {STARTS} EM starts")
+        self.query_one("#choice", Static).update(t)
+
+    def _show_result(self) -> None:
+        block = self.result.blocks[0]
+        self.query_one("#status", Static).update(preferred_line(block))
+        table = self.query_one("#models", DataTable)
+        table.clear()
+        table.add_rows(model_rows(block.models))
+        self._show_detail(0)
+        self.query_one("#sizes", Static).update(sizes_line(block))
+        self.query_one("#left-out", Static).update(left_out_line(block))
+        self.query_one("#notes", Static).update(notes_text(block))
+
+    def _show_detail(self, row: int) -> None:
+        detail = self.query_one("#detail", Static)
+        if self.result is None or not self.result.blocks:
+            detail.update("")
+            return
+        block = self.result.blocks[0]
+        models = block.models
+        if not 0 <= row < len(models):
+            detail.update(f" {len(block.data.columns)} column(s): " + ", ".join(block.data.columns)
+                          if block.data.columns else " no usable column")
+            return
+        r = models.iloc[row]
+        t = Text(f" {r['family']} K={r['K']}: {r['message'] or 'fitted'}\n")
+        t.append(f" {len(block.data.columns)} column(s): " + ", ".join(block.data.columns), style="dim")
+        detail.update(t)
+
+    def on_data_table_row_highlighted(self, event: DataTable.RowHighlighted) -> None:
+        event.stop()
+        self._show_detail(event.cursor_row)
+
+    # --- actions ------------------------------------------------------------------------
+    def action_next_block(self) -> None:
+        if self.columns:
+            self.columns = ""  # back from typed columns to the blocks, at the current one
+            self.query_one("#columns", Input).value = ""
+        else:
+            self.block = BLOCKS[(BLOCKS.index(self.block) + 1) % len(BLOCKS)]
+        self.start()
+
+    def action_kmax(self, step: int) -> None:
+        k = min(max(self.kmax + step, KMAX_RANGE[0]), KMAX_RANGE[1])
+        if k == self.kmax:
+            self.notify(f"K max stays within {KMAX_RANGE[0]}..{KMAX_RANGE[1]}", severity="warning")
+            return
+        self.kmax = k
+        self.start()
+
+    def action_edit_columns(self) -> None:
+        self.query_one("#columns", Input).focus()
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        event.stop()
+        self.columns = event.value.strip()
+        self.query_one("#models", DataTable).focus()
+        self.start()
+
+    def action_back(self) -> None:
+        field = self.query_one("#columns", Input)
+        if field.has_focus:
+            self.query_one("#models", DataTable).focus()
+            return
+        self.app.pop_screen()
