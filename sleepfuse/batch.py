@@ -289,6 +289,9 @@ def run_batch(
     inputs += [_input_record(config, p, "diary") for p in files if _rel(config, p) not in seen]
     out = Path(options.out)
     out.mkdir(parents=True, exist_ok=True)
+    # provenance.json marks a complete run: remove an older one first, so a run cut short
+    # never leaves new tables beside an old run's provenance
+    (out / "provenance.json").unlink(missing_ok=True)
     written = [write_table(tables[name], out / name, options.format) for name in OUTPUT_TABLES]
     if options.plots:
         written += write_plots(tables, out)

@@ -218,3 +218,22 @@ def test_parquet_and_workers_give_the_same_tables(tmp_path, crafted):
     # CSV reads empty text as missing; Parquet keeps "" — compare on that footing
     parquet = pd.read_parquet(tmp_path / "pq" / "nights.parquet").replace("", np.nan)
     pd.testing.assert_frame_equal(pd.read_csv(out / "nights.csv"), parquet, check_dtype=False)
+
+
+def test_run_cut_short_leaves_no_provenance(tmp_path, crafted, monkeypatch):
+    """provenance.json marks a complete run (common practice for atomic multi-file outputs)."""
+    import sleepfuse.batch as batch
+
+    root, _, _ = crafted
+    out = tmp_path / "out"
+    run_batch(root, BatchOptions(out=out), argv=["test"])
+    assert (out / "provenance.json").exists()
+
+    def broken(*args, **kwargs):
+        raise KeyboardInterrupt  # the run is stopped while writing the tables
+
+    monkeypatch.setattr(batch, "write_table", broken)
+    with pytest.raises(KeyboardInterrupt):
+        run_batch(root, BatchOptions(out=out), argv=["test"])
+    assert not (out / "provenance.json").exists()
+    assert not list(out.glob(".*.tmp"))
