@@ -8,6 +8,8 @@ from pathlib import Path
 
 from .cli import study_dir
 
+CONSOLE_WARNINGS = 30  # batch prints every QC error and this many warnings; qc.csv holds them all
+
 
 def register(sub) -> None:
     """Add the score, batch, explore and open commands to the ``sleepfuse`` parser."""
@@ -89,6 +91,8 @@ def _positive_int(value: str) -> int:
 
 
 def run_batch_command(args: argparse.Namespace) -> int:
+    import pandas as pd
+
     from .batch import BatchOptions, run_batch
     from .progress import participant_progress
 
@@ -104,9 +108,14 @@ def run_batch_command(args: argparse.Namespace) -> int:
         print(f"sleepfuse: {exc}", file=sys.stderr)
         return 2
     qc = result.tables["qc"]
-    for _, e in qc[qc["severity"] != "info"].iterrows():
+    errors, warnings = qc[qc["severity"] == "error"], qc[qc["severity"] == "warning"]
+    shown = pd.concat([errors, warnings.head(CONSOLE_WARNINGS)])
+    for _, e in shown.iterrows():  # every error; the first warnings (all are in qc)
         where = " ".join(str(x) for x in (e["participant"], e["night"], e["file"]) if x)
         print(f"{e['severity'].upper():7s} {where}: {e['message']}", file=sys.stderr)
+    if len(warnings) > CONSOLE_WARNINGS:
+        print(f"... and {len(warnings) - CONSOLE_WARNINGS} more warnings: see qc.{args.format} in {args.out}",
+              file=sys.stderr)
     print(f"{result.n_participants} participants ({result.n_recomputed} computed, {result.n_from_cache} from cache), "
           f"{result.n_scored_nights} included nights; wrote {len(result.written)} files to {args.out}", file=sys.stderr)
     if result.n_scored_nights == 0:
