@@ -88,6 +88,7 @@ class ScoringSection:
 class AgreementSection:
     clock_offset_max_min: float = 30.0
     clock_offset_flag_min: float = 5.0
+    clock_offset_flag_kappa_gain: float = 0.05  # ... and only if shifting raises kappa by at least this much
 
 
 @dataclass
@@ -239,6 +240,8 @@ def build_config(root: str | Path, data: dict[str, Any] | None = None, source: P
         _fail("agreement.clock_offset_max_min", ag.clock_offset_max_min, "a number of minutes in (0, 180]", source)
     if ag.clock_offset_flag_min < 0:
         _fail("agreement.clock_offset_flag_min", ag.clock_offset_flag_min, "zero or more minutes", source)
+    if not 0 <= ag.clock_offset_flag_kappa_gain <= 1:
+        _fail("agreement.clock_offset_flag_kappa_gain", ag.clock_offset_flag_kappa_gain, "a number from 0 to 1", source)
     return cfg
 
 

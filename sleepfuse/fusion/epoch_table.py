@@ -54,7 +54,9 @@ def epoch_rows(config: StudyConfig, scored: ScoredParticipant, qc: QCLog) -> lis
             off = best_clock_offset(*args, window=(window.start, window.end),
                                     max_offset_min=config.agreement.clock_offset_max_min)
             offset_min = off["offset_s"] / 60.0
-            flag = bool(np.isfinite(offset_min) and abs(offset_min) >= config.agreement.clock_offset_flag_min)
+            gain = off["kappa_at_best"] - off["kappa_at_zero"]
+            flag = bool(np.isfinite(offset_min) and abs(offset_min) >= config.agreement.clock_offset_flag_min
+                        and np.isfinite(gain) and gain >= config.agreement.clock_offset_flag_kappa_gain)
             if flag:
                 qc.warning(
                     f"epoch agreement: actigraphy fits PSG best with its clock shifted by {offset_min:+.0f} min "
