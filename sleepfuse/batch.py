@@ -17,7 +17,6 @@ from __future__ import annotations
 import datetime as dt
 import json
 import math
-import os
 import platform
 import sys
 from concurrent.futures import ProcessPoolExecutor, ThreadPoolExecutor, as_completed
@@ -30,6 +29,7 @@ import pandas as pd
 
 from . import RESEARCH_CAUTION, __version__
 from .atomic import atomic_path, write_text
+from .cache import library_versions
 from .config import StudyConfig, load_config
 from .fusion.epoch_table import epoch_rows, epoch_table
 from .fusion.matrix import codebook, participant_matrix
@@ -203,7 +203,8 @@ def build_tables(config: StudyConfig, outcomes: list[ParticipantOutcome], qc: QC
         "agreement": agreement_table(nights),
         "epochs_agreement": epoch_table([r for o in outcomes for r in o.epoch_rows]),
         "matrix": matrix,
-        "codebook": codebook(matrix, min_nights=options.min_nights, zscore=options.zscore),
+        "codebook": codebook(matrix, min_nights=options.min_nights, zscore=options.zscore,
+                             quality_scale=config.diary.quality_scale),
         "qc": qc.to_frame(),
     }
 
@@ -304,7 +305,7 @@ def run_batch(
         "started": started.isoformat(),
         "finished": dt.datetime.now(dt.timezone.utc).isoformat(),
         "python": platform.python_version(),
-        "libraries": _library_versions(),
+        "libraries": library_versions(("numpy", "pandas", "scipy", "pyedflib", "matplotlib", "pyarrow")),
         "study": str(Path(study).resolve()),
         "configuration": config.to_dict(),
         "algorithm": algorithm_provenance(config),
@@ -332,19 +333,3 @@ def run_batch(
     scored = int(nights["included"].sum()) if not nights.empty else 0
     return BatchResult(tables, provenance, written, len(outcomes), scored, cache_report.recomputed,
                        cache_report.from_cache)
-
-
-def _library_versions() -> dict[str, str]:
-    import importlib.metadata as md
-
-    out = {}
-    for name in ("numpy", "pandas", "scipy", "pyedflib", "matplotlib", "pyarrow"):
-        try:
-            out[name] = md.version(name)
-        except md.PackageNotFoundError:
-            out[name] = "not installed"
-    return out
-
-
-def default_workers() -> int:
-    return max(1, min(4, (os.cpu_count() or 1)))

@@ -75,7 +75,8 @@ def participant_matrix(nights: pd.DataFrame, rhythm: pd.DataFrame, *, min_nights
     return out.reset_index()
 
 
-def codebook(matrix: pd.DataFrame, *, min_nights: int = 1, zscore: bool = False) -> pd.DataFrame:
+def codebook(matrix: pd.DataFrame, *, min_nights: int = 1, zscore: bool = False,
+             quality_scale: str = "as entered") -> pd.DataFrame:
     """codebook.csv: every matrix column with source, parameter, statistic, unit, definition, n, skewness."""
     rows = [{"name": "participant", "source": "", "parameter": "", "statistic": "id", "unit": "",
              "definition": "Participant ID: the file-name part before the first '_' (or [study] participant_pattern).",
@@ -94,6 +95,8 @@ def codebook(matrix: pd.DataFrame, *, min_nights: int = 1, zscore: bool = False)
                 what = "Mean" if stat == "mean" else "Standard deviation (ddof=1)"
                 definition = (f"{what} over the participant's included {src} nights (at least {min_nights}) of: "
                               f"{info.definition} {WINDOW_NOTE}")
+            if param == "quality":
+                definition += f" Scale: {quality_scale}."
             if zscore:
                 definition += f" Standardised over participants (original unit: {info.unit})."
         n = int(col.notna().sum())
