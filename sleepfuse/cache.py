@@ -37,12 +37,12 @@ _LIBRARIES = ("numpy", "pandas", "scipy", "pyedflib")
 _COMMIT_EVERY_S = 2.0
 
 
-def library_versions() -> dict[str, str]:
-    """Versions of the libraries whose arithmetic shapes the scores (part of the key)."""
+def library_versions(names: tuple[str, ...] = _LIBRARIES) -> dict[str, str]:
+    """Installed versions of ``names``; by default the libraries whose arithmetic shapes the scores (part of the key)."""
     import importlib.metadata as md
 
     out = {}
-    for name in _LIBRARIES:
+    for name in names:
         try:
             out[name] = md.version(name)
         except md.PackageNotFoundError:

@@ -73,9 +73,6 @@ class QCLog:
     def for_participant(self, participant: str) -> list[QCEntry]:
         return [e for e in self.entries if e.participant == participant]
 
-    def for_night(self, participant: str, night: str) -> list[QCEntry]:
-        return [e for e in self.entries if e.participant == participant and e.night == night]
-
     def to_frame(self):
         """The log as a pandas DataFrame with the columns of qc.csv."""
         import pandas as pd

@@ -41,7 +41,3 @@ def is_sleep(codes: np.ndarray) -> np.ndarray:
     """True where an epoch is any sleep (N1, N2, N3, R or unstaged sleep)."""
     codes = np.asarray(codes)
     return (codes >= Stage.N1) & (codes <= Stage.SLEEP)
-
-
-def is_wake(codes: np.ndarray) -> np.ndarray:
-    return np.asarray(codes) == Stage.WAKE

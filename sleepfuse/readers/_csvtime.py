@@ -119,23 +119,6 @@ def _sample_offsets(w: np.ndarray, tz: str) -> tuple[int, np.ndarray, np.ndarray
     return lo, samples - utc, valid
 
 
-def _steady_offset_utc(wall: np.ndarray, tz: str) -> np.ndarray | None:
-    """UTC µs of wall times when one UTC offset holds over their whole span, else None.
-
-    The zone's offset is looked up every 30 min of wall time from just before
-    the first to just after the last time; no change and no skipped or repeated
-    sample means no wall time in the span is skipped or repeated (zones change
-    offset at most once within hours), so wall − offset is the instant.
-    """
-    if wall.size == 0:
-        return None
-    w = wall.astype("datetime64[us]", copy=False).view(np.int64)
-    _, offsets, valid = _sample_offsets(w, tz)
-    if not valid.all() or not (offsets == offsets[0]).all():
-        return None
-    return w - offsets[0]
-
-
 def _plain_utc(w: np.ndarray, tz: str, sampled: tuple[int, np.ndarray, np.ndarray] | None = None) -> np.ndarray:
     """``tz_localize(tz, ambiguous="NaT", nonexistent="NaT")`` of wall µs ``w``, as UTC µs (NaT: int64 min).
 
@@ -171,7 +154,7 @@ def _localize_wall(wall: np.ndarray, lines: np.ndarray, tz: str) -> tuple[np.nda
     sampled = _sample_offsets(w, tz)
     _, offsets, valid = sampled
     if valid.all() and (offsets == offsets[0]).all():  # the common case: one offset over the file's span
-        return w - offsets[0], np.ones(n, dtype=bool), problems  # (as _steady_offset_utc)
+        return w - offsets[0], np.ones(n, dtype=bool), problems
     nat = np.iinfo(np.int64).min
     plain = _plain_utc(w, tz, sampled)
     odd = np.flatnonzero(plain == nat)

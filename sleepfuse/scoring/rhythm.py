@@ -63,17 +63,6 @@ def _utc_offsets_ns(utc_ns: np.ndarray, tz) -> np.ndarray:
     return offsets
 
 
-def _epoch_hours(start: pd.Timestamp, epoch_s: float, n: int):
-    """Per epoch: UTC ns of its local wall-clock hour start, and that hour of day (0–23).
-
-    Epoch i is at start + i·epoch_s elapsed; the hour is the local wall-clock
-    hour, so the repeated hour at a DST fall-back gives two distinct bins.
-    Integer ns arithmetic throughout (no per-epoch Timestamps).
-    """
-    key, wall_hour, tz = _hour_keys(start, epoch_s, n)
-    return key, (wall_hour % 24).astype(np.int64), tz
-
-
 def _hour_keys(start: pd.Timestamp, epoch_s: float, n: int):
     """Per epoch: UTC ns of its local wall-clock hour start, the wall-clock hour count, the zone."""
     tz = pd.Timestamp(start).tz
