@@ -94,25 +94,31 @@ def run_participant(config: StudyConfig, job: ParticipantJob, inputs: list[dict]
         qc.error(f"epoch-by-epoch agreement not computed: {type(exc).__name__}: {exc}", participant=job.participant)
         erows = []
     if inputs is None:
-        inputs = job_inputs(config, job)
+        inputs = job_inputs(config, job, scored.digests)
     return ParticipantOutcome(job.participant, scored.rows, scored.rhythm, erows, qc.entries, list(inputs))
 
 
-def job_inputs(config: StudyConfig, job: ParticipantJob) -> list[dict]:
-    """Provenance record (relative path, source, SHA-256, size, time) of each of a job's files."""
-    return [_input_record(config, p, source) for source, paths in job.files.items() for p in paths]
+def job_inputs(config: StudyConfig, job: ParticipantJob, digests: dict[Path, str] | None = None) -> list[dict]:
+    """Provenance record (relative path, source, SHA-256, size, time) of each of a job's files.
+
+    ``digests``: SHA-256 of files already hashed by their reader (of the very bytes it read)."""
+    digests = digests or {}
+    return [_input_record(config, p, source, digests.get(p)) for source, paths in job.files.items() for p in paths]
 
 
-def failed_outcome(job: ParticipantJob, exc: BaseException, inputs: list[dict] | None = None) -> ParticipantOutcome:
-    """A participant whose worker crashed: one QC error, no rows (never cached)."""
+def failed_outcome(config: StudyConfig, job: ParticipantJob, exc: BaseException,
+                   inputs: list[dict] | None = None) -> ParticipantOutcome:
+    """A participant whose worker crashed: one QC error, no rows (never cached); its files still in provenance."""
     entry = QCEntry("", job.participant, "", "error", f"participant not processed: {type(exc).__name__}: {exc}")
-    return ParticipantOutcome(job.participant, [], {}, [], [entry], list(inputs or []))
+    if inputs is None:
+        inputs = job_inputs(config, job)
+    return ParticipantOutcome(job.participant, [], {}, [], [entry], list(inputs))
 
 
-def _input_record(config: StudyConfig, path: Path, source: str) -> dict:
+def _input_record(config: StudyConfig, path: Path, source: str, digest: str | None = None) -> dict:
     try:
         stat = path.stat()
-        digest = sha256_of(path)
+        digest = digest or sha256_of(path)
     except OSError as exc:
         return {"file": _rel(config, path), "source": source, "sha256": "", "error": str(exc)}
     return {
@@ -164,6 +170,7 @@ def _run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
                 progress(job.participant, done_before + k, total)
             finish(k, run_participant(config, job, inputs[k]), k + 1)
     else:
+        _preload()
         with ProcessPoolExecutor(max_workers=min(workers, n)) as pool:
             futures = {pool.submit(run_participant, config, job, inputs[k]): k for k, job in enumerate(jobs)}
             for i, fut in enumerate(as_completed(futures)):
@@ -171,11 +178,18 @@ def _run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
                 try:
                     outcome = fut.result()
                 except Exception as exc:  # a crashed worker loses one participant, not the study
-                    outcome = failed_outcome(jobs[k], exc, inputs[k])
+                    outcome = failed_outcome(config, jobs[k], exc, inputs[k])
                 finish(k, outcome, i + 1)
     if progress:
         progress("", done_before + n, total)
     return sorted(outcomes, key=lambda o: o.participant)
+
+
+def _preload() -> None:
+    """Import what every worker needs before the pool forks, so each worker does not import it again."""
+    import pyarrow.csv  # noqa: F401
+
+    from .readers import actigraphy, diary, edf  # noqa: F401
 
 
 def hash_inputs(config: StudyConfig, jobs: list[ParticipantJob], workers: int = 2) -> list[list[dict]]:

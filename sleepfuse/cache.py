@@ -239,7 +239,6 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", options: "Ba
     """Outcomes of every job: unchanged participants from the cache, the rest computed and stored."""
     from .batch import _rel, _run_jobs, hash_inputs
 
-    inputs = hash_inputs(config, jobs, options.workers)
     report = CacheReport(used=False, reason="--no-cache" if not options.cache else "")
     cache = None
     if options.cache:
@@ -248,10 +247,12 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", options: "Ba
         except CacheUnavailable as exc:
             report.reason = str(exc)
             qc.info(f"incremental cache not used: {exc}; every participant computed", file=CACHE_DIR)
-    if cache is None:
-        outcomes = _run_jobs(config, jobs, options.workers, progress, inputs=inputs, scheduler=options.scheduler)
+    if cache is None:  # each worker checksums its own participant's files (in parallel, no cache key needed)
+        outcomes = _run_jobs(config, jobs, options.workers, progress, scheduler=options.scheduler)
         report.recomputed = len(outcomes)
         return outcomes, report
+
+    inputs = hash_inputs(config, jobs, options.workers)
 
     report.used, report.path = True, _rel(config, cache.path)
     for note in cache.notes:

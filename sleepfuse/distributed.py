@@ -92,7 +92,7 @@ def run_jobs_on_dask(
             try:
                 outcome = fut.result()
             except Exception as exc:  # noqa: BLE001 - one participant lost, not the study
-                outcome = failed_outcome(jobs[k], exc, inputs[k])
+                outcome = failed_outcome(config, jobs[k], exc, inputs[k])
             fut.release()
             finish(k, outcome, n_done)
     finally:

@@ -37,6 +37,7 @@ def process_participant(config: StudyConfig, job: ParticipantJob) -> tuple[Score
     try:
         rec = load_participant(config, job.participant, job.files, qc, job.extra_diary)
         scored = score_participant(config, rec, qc)
+        scored.digests = rec.digests
     except Exception as exc:  # one participant never stops the study
         qc.error(f"participant not processed: {type(exc).__name__}: {exc}", participant=job.participant)
         scored = ScoredParticipant(job.participant)

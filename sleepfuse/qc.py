@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
-from dataclasses import asdict, dataclass, field
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Iterable, Iterator, Literal
 
@@ -77,4 +77,5 @@ class QCLog:
         """The log as a pandas DataFrame with the columns of qc.csv."""
         import pandas as pd
 
-        return pd.DataFrame([asdict(e) for e in self.entries], columns=QC_COLUMNS)
+        return pd.DataFrame([(e.file, e.participant, e.night, e.severity, e.message) for e in self.entries],
+                            columns=QC_COLUMNS)

@@ -45,6 +45,7 @@ class Hypnogram:
     lights_on: pd.Timestamp | None = None
     unknown_labels: dict[str, int] = field(default_factory=dict)
     problems: list[Problem] = field(default_factory=list)
+    sha256: str = ""  # of the bytes read, when the reader read the whole file ("" otherwise)
 
     @property
     def n_epochs(self) -> int:
@@ -74,6 +75,7 @@ class ActigraphyRecord:
     off_wrist: np.ndarray | None = None  # bool
     marker: np.ndarray | None = None  # bool
     problems: list[Problem] = field(default_factory=list)
+    sha256: str = ""  # of the bytes read
 
     @property
     def n_epochs(self) -> int:

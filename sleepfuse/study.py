@@ -32,6 +32,7 @@ class ParticipantRecords:
     actigraphy: list[ActigraphyRecord] = field(default_factory=list)
     diary: list[DiaryEntry] = field(default_factory=list)
     files: list[Path] = field(default_factory=list)
+    digests: dict[Path, str] = field(default_factory=dict)  # SHA-256 of files whose reader hashed what it read
 
     def nights(self, source: str) -> list[dt.date]:
         """Sorted nights on which ``source`` has data (noon-to-noon rule)."""
@@ -196,6 +197,8 @@ def load_participant(
                 qc.error(f"{label} file not read: {exc.reason}", file=rel, participant=participant)
                 continue
             _report_problems(qc, record.problems, file=rel, participant=participant)
+            if getattr(record, "sha256", ""):
+                rec.digests[path] = record.sha256
             keep(record)
     rec.diary.extend(extra_diary)
     _check_duplicate_nights(rec, qc, config)

@@ -108,6 +108,22 @@ def test_proportional_bias_matches_scipy_linregress():
     assert res["prop_slope_ci_low"] == pytest.approx(fit.slope - t * fit.stderr)
     assert res["prop_slope_ci_high"] == pytest.approx(fit.slope + t * fit.stderr)
     assert res["prop_p"] < 0.05 and res["prop_slope_ci_high"] < 0
+    # Regression-based limits (Bland & Altman 1999 §3.2): |residuals| regressed on the mean, by scipy.
+    m = (test + ref) / 2
+    spread = stats.linregress(m, np.abs(test - ref - (fit.intercept + fit.slope * m)))
+    k = stats.norm.ppf(0.975) * np.sqrt(np.pi / 2)
+    assert res["reg_loa_intercept_high"] == pytest.approx(fit.intercept + k * spread.intercept, rel=1e-10)
+    assert res["reg_loa_slope_low"] == pytest.approx(fit.slope - k * spread.slope, rel=1e-10)
+
+
+def test_proportional_bias_of_an_exact_line_matches_scipy():
+    # Source: scipy.stats.linregress on the edge cases of a perfect fit and a constant difference.
+    ref = np.arange(10.0, 20.0)
+    for test in (1.1 * ref + 2.0, ref + 3.0):
+        res = proportional_bias(test, ref)
+        fit = stats.linregress((test + ref) / 2, test - ref)
+        assert res["prop_slope"] == pytest.approx(fit.slope, abs=1e-12)
+        assert res["prop_p"] == pytest.approx(fit.pvalue, abs=1e-12, nan_ok=True)
 
 
 def test_proportional_bias_slope_ci_matches_statsmodels():

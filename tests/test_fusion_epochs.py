@@ -138,3 +138,31 @@ def test_best_clock_offset_prefers_zero_on_ties_and_respects_range():
     flat = best_clock_offset(T0, 30, np.full(40, Stage.N2, np.int8), T0, 60,
                              np.ones(30, bool), np.ones(30, bool), max_offset_min=2)
     assert math.isnan(flat["offset_s"]) and math.isnan(flat["kappa_at_zero"])
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_whole_epoch_shift_counts_equal_the_dense_lookup(seed):
+    # The correlation shortcut (_shift_counts) must give the very counts of looking every
+    # PSG midpoint up at every offset (_dense_counts), including offsets that push the
+    # night past either end of the recording, odd lags and invalid minutes.
+    from sleepfuse.fusion.epochs import _dense_counts, _shift_counts
+
+    rng = np.random.default_rng(seed)
+    n_psg, n_act, k_max = int(rng.integers(5, 900)), int(rng.integers(1, 700)), int(rng.integers(0, 40))
+    lag = float(rng.choice([0.0, 30.0, -600.0, 1234.5, 17.25, rng.uniform(-3000, 3000)]))
+    mid = lag + (np.arange(n_psg) + 0.5) * 30.0
+    mid = mid[rng.random(n_psg) < 0.9]  # some PSG epochs not scored
+    psg_sleep = rng.random(mid.size) < 0.7
+    act = rng.random(n_act) < 0.6
+    act_ok = rng.random(n_act) < 0.93
+    offsets = np.arange(-k_max, k_max + 1) * 60.0
+    fast = _shift_counts(mid, psg_sleep, 60.0, act, act_ok, k_max)
+    dense = _dense_counts(mid, psg_sleep, offsets, 60.0, act, act_ok)
+    for f, d in zip(fast, dense):
+        np.testing.assert_array_equal(f, d)
+
+
+def test_finer_step_than_the_actigraphy_epoch_still_searches_every_step():
+    codes, act_start, act, present = _synthetic_night(shift_min=7)
+    res = best_clock_offset(T0, 30, codes, act_start, 60, act, present, step_s=30, max_offset_min=10)
+    assert res["n_offsets"] == 41 and res["offset_s"] == -420.0

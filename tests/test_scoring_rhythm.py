@@ -159,3 +159,45 @@ def test_nonwear_hours_are_excluded():
 def test_no_valid_data():
     r = rest_activity_rhythm(start_midnight(), 60.0, np.zeros(600), np.zeros(600, bool))
     assert r["n_days"] == 0 and all(math.isnan(r[k]) for k in RHYTHM_PARAMETERS)
+
+
+def _reference_hourly(start, epoch_s, counts, valid, min_valid_fraction=0.5):
+    """Hourly means by pandas alone, epoch by epoch (common practice): each epoch's local
+    wall-clock hour, told apart by its UTC offset where the clock repeats an hour."""
+    n = counts.size
+    utc = pd.DatetimeIndex(pd.Timestamp(start).tz_convert("UTC") + pd.to_timedelta(np.arange(n) * epoch_s, unit="s"))
+    local = utc.tz_convert(start.tz)
+    wall = local.tz_localize(None)
+    offset = wall - utc.tz_localize(None)
+    key = (wall.floor("h") - offset).as_unit("ns").asi8  # UTC instant (ns) of the local hour start
+    ok = valid & ~np.isnan(counts)
+    df = pd.DataFrame({"key": key, "ok": ok.astype(float), "c": np.where(ok, counts, 0.0)})
+    g = df.groupby("key", sort=False).sum()
+    per_hour = 3600.0 / epoch_s
+    mean = np.where(g["ok"] >= min_valid_fraction * per_hour - 1e-9, g["c"] / g["ok"].where(g["ok"] > 0), np.nan)
+    return g.index.to_numpy(), mean * (60.0 / epoch_s)
+
+
+@pytest.mark.parametrize("tz, start, days, epoch_s", [
+    ("Europe/Berlin", "2026-03-27 11:58:30", 4, 30.0),   # spring forward
+    ("Europe/Berlin", "2026-10-23 12:00:00", 4, 30.0),   # fall back
+    ("America/Chicago", "2026-10-31 21:17:15", 3, 15.0),
+    ("Asia/Kolkata", "2026-05-01 07:41:00", 2, 60.0),    # +05:30, no DST
+    ("Australia/Lord_Howe", "2026-04-03 12:00:00", 3, 60.0),  # DST of 30 min
+    ("Australia/Lord_Howe", "2026-10-02 12:07:00", 3, 30.0),
+    ("UTC", "2026-01-01 00:00:00", 1, 3600.0),
+    ("Europe/Berlin", "2026-10-24 23:31:00", 2, 3600.0),
+    ("Europe/Berlin", "2026-10-24 12:00:00", 1.5, 7.5),   # not whole seconds: the epoch-by-epoch path
+])
+def test_hourly_means_equal_a_pandas_epoch_by_epoch_reference(tz, start, days, epoch_s):
+    rng = np.random.default_rng(3)
+    ts = pd.Timestamp(start, tz=tz)
+    n = int(days * 86400 / epoch_s)
+    counts = rng.gamma(1.0, 50.0, n)
+    counts[rng.random(n) < 0.02] = np.nan
+    valid = rng.random(n) < 0.9
+    hm = hourly_means(ts, epoch_s, counts, valid)
+    keys, mean = _reference_hourly(ts, epoch_s, counts, valid)
+    np.testing.assert_array_equal(hm.index.as_unit("ns").asi8, keys)
+    np.testing.assert_allclose(hm.to_numpy(), mean, rtol=1e-12, equal_nan=True)
+    assert list(hm.index.hour) == list(pd.DatetimeIndex(pd.to_datetime(keys, utc=True)).tz_convert(tz).hour)

@@ -8,6 +8,7 @@ test − reference (actigraphy − PSG, diary − PSG, diary − actigraphy).
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
@@ -65,6 +66,7 @@ PROPORTIONAL_P = 0.05
 _NAN = float("nan")
 
 
+@functools.lru_cache(maxsize=64)
 def _z(confidence: float) -> float:
     """Two-sided normal quantile, 1.96 for confidence 0.95."""
     if not 0.0 < confidence < 1.0:
@@ -72,8 +74,31 @@ def _z(confidence: float) -> float:
     return float(stats.norm.ppf(0.5 + confidence / 2.0))
 
 
+@functools.lru_cache(maxsize=4096)
 def _t(confidence: float, df: int) -> float:
     return float(stats.t.ppf(0.5 + confidence / 2.0, df))
+
+
+def _ols(x: np.ndarray, y: np.ndarray) -> tuple[float, float, float, float]:
+    """Least-squares line y = intercept + slope·x: (slope, intercept, slope standard error, two-sided p).
+
+    The textbook closed form, p from the t statistic of the correlation on
+    n − 2 df (same values as scipy.stats.linregress, checked in
+    tests/test_fusion_agreement.py; p is NaN when y is constant). Needs n ≥ 3
+    and x not constant.
+    """
+    n = x.size
+    xm, ym = x.mean(), y.mean()
+    dx, dy = x - xm, y - ym
+    sxx, sxy, syy = float(dx @ dx), float(dx @ dy), float(dy @ dy)
+    slope = sxy / sxx
+    if syy == 0.0:
+        return slope, float(ym - slope * xm), 0.0, _NAN
+    r = min(max(sxy / math.sqrt(sxx * syy), -1.0), 1.0)
+    df = n - 2
+    t = r * math.sqrt(df / ((1.0 - r + 1e-20) * (1.0 + r + 1e-20)))
+    stderr = math.sqrt(max(1.0 - r * r, 0.0) * syy / sxx / df)
+    return slope, float(ym - slope * xm), stderr, float(2.0 * stats.t.sf(abs(t), df))
 
 
 def _pair(test, reference) -> tuple[np.ndarray, np.ndarray]:
@@ -149,20 +174,18 @@ def proportional_bias(test, reference, *, confidence: float = 0.95) -> dict:
     out = dict.fromkeys(keys, _NAN)
     if n < 3 or np.ptp(m) == 0.0:
         return out
-    fit = stats.linregress(m, d)
-    slope, intercept = float(fit.slope), float(fit.intercept)
+    slope, intercept, stderr, p = _ols(m, d)
     t = _t(confidence, n - 2)
     out.update(
         prop_slope=slope,
-        prop_slope_ci_low=slope - t * float(fit.stderr),
-        prop_slope_ci_high=slope + t * float(fit.stderr),
-        prop_p=float(fit.pvalue),
+        prop_slope_ci_low=slope - t * stderr,
+        prop_slope_ci_high=slope + t * stderr,
+        prop_p=p,
         prop_intercept=intercept,
     )
     abs_resid = np.abs(d - (intercept + slope * m))
-    spread = stats.linregress(m, abs_resid)
+    c1, c0, _, _ = _ols(m, abs_resid)
     k = _z(confidence) * math.sqrt(math.pi / 2.0)
-    c0, c1 = float(spread.intercept), float(spread.slope)
     out.update(
         reg_loa_intercept_low=intercept - k * c0,
         reg_loa_slope_low=slope - k * c1,

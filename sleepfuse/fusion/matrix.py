@@ -47,24 +47,32 @@ def participant_matrix(nights: pd.DataFrame, rhythm: pd.DataFrame, *, min_nights
     """
     cols = feature_columns()
     ids = sorted(set(participants or []) | set(nights["participant"]) | set(rhythm["participant"]))
-    out = pd.DataFrame(index=pd.Index(ids, name="participant"))
+    index = pd.Index(ids, name="participant")
+    data: dict[str, np.ndarray] = {}
     inc = nights[nights["included"]] if not nights.empty else nights
     for source in SOURCES:
         sub = inc[inc["source"] == source] if not inc.empty else inc
         params = SOURCE_PARAMETERS[source]
-        g = sub.groupby("participant") if not sub.empty else None
-        count = g.size() if g is not None else pd.Series(dtype=float)
-        out[f"{source}_nights"] = count.reindex(ids).fillna(0).astype(int)
-        mean = g[params].mean() if g is not None else pd.DataFrame(columns=params)
-        sd = g[params].std(ddof=1) if g is not None else pd.DataFrame(columns=params)
-        enough = out[f"{source}_nights"] >= max(min_nights, 1)
-        for p in params:
-            out[f"{source}_{p}_mean"] = mean[p].reindex(ids).where(enough) if p in mean else math.nan
-            out[f"{source}_{p}_sd"] = sd[p].reindex(ids).where(enough) if p in sd else math.nan
+        n_nights = np.zeros(len(ids), dtype=np.int64)
+        mean = sd = None
+        if not sub.empty:
+            values = sub[params].apply(pd.to_numeric, errors="coerce").astype(float)
+            g = values.groupby(sub["participant"])
+            n_nights = g.size().reindex(index, fill_value=0).to_numpy(np.int64)
+            mean = g.mean().reindex(index).to_numpy(float)
+            sd = g.std(ddof=1).reindex(index).to_numpy(float)
+        data[f"{source}_nights"] = n_nights
+        enough = n_nights >= max(min_nights, 1)
+        for j, p in enumerate(params):
+            for stat, table in (("mean", mean), ("sd", sd)):
+                col = np.full(len(ids), math.nan) if table is None else table[:, j].copy()
+                col[~enough] = math.nan
+                data[f"{source}_{p}_{stat}"] = col
     rh = rhythm.set_index("participant") if not rhythm.empty else pd.DataFrame(columns=list(RHYTHM_PARAMETERS))
     for r in RHYTHM_PARAMETERS:
-        out[f"actigraphy_{r}"] = rh[r].reindex(ids) if r in rh else math.nan
-    out = out[[c[0] for c in cols]]
+        data[f"actigraphy_{r}"] = (rh[r].reindex(index).to_numpy(float) if r in rh
+                                   else np.full(len(ids), math.nan))
+    out = pd.DataFrame({c[0]: data[c[0]] for c in cols}, index=index)
     if zscore:
         for name, _, _, stat in cols:
             if stat == "nights":

@@ -61,8 +61,11 @@ def read_text(path: Path) -> str:
     return raw.decode("ascii") if raw.isascii() else raw.decode("utf-8")
 
 
-def read_raw(path: Path) -> bytes:
-    """The file's bytes without a byte-order mark, checked to be UTF-8 text (else a ReadError)."""
+BOM = b"\xef\xbb\xbf"
+
+
+def read_raw(path: Path, *, with_bom: bool = False) -> bytes:
+    """The file's bytes without a byte-order mark (kept if ``with_bom``), checked to be UTF-8 text (else a ReadError)."""
     try:
         raw = path.read_bytes()
     except FileNotFoundError:
@@ -82,7 +85,7 @@ def read_raw(path: Path) -> bytes:
             ) from None
     if b"\x00" in raw:
         raise ReadError(path, "the file holds NUL bytes; it is not a text CSV file")
-    return raw[3:] if bom else raw
+    return raw[3:] if bom and not with_bom else raw
 
 
 def read_fast_columns(raw: bytes, wanted: dict[str, object],

@@ -214,8 +214,13 @@ def read_header(path: Path, raw: bytes, file_bytes: int) -> EdfHeader:
     return EdfHeader(start, variant, header_bytes, n_records, duration, record_bytes, tuple(signals), tuple(notes))
 
 
-def data_records(path: Path, header: EdfHeader) -> np.ndarray:
-    """Read-only memory map of the data records, shape (n_records, record_bytes)."""
+def data_records(path: Path, header: EdfHeader, content: bytes | None = None) -> np.ndarray:
+    """The data records, read-only, shape (n_records, record_bytes): a view of ``content`` (the
+    file's bytes, when already read) or else a memory map of the file."""
+    if content is not None:
+        count = header.n_records * header.record_bytes
+        return np.frombuffer(content, dtype=np.uint8, count=count, offset=header.header_bytes).reshape(
+            header.n_records, header.record_bytes)
     return np.memmap(
         path, dtype=np.uint8, mode="r", offset=header.header_bytes, shape=(header.n_records, header.record_bytes)
     )
@@ -329,7 +334,7 @@ def _signal_annotations(
         keeper = first & np.fromiter(map(bytes.startswith, rest, repeat(b"\x14")), dtype=bool, count=count)
         kept = np.flatnonzero(keeper).tolist()
         if kept:
-            keeper_onsets[owner[kept]] = list(map(float, np.array(onset_raw, dtype=object)[kept]))
+            keeper_onsets[owner[kept]] = np.array(onset_raw, dtype="S")[kept].astype(np.float64)
         bad = 0
         carriers = np.flatnonzero(np.fromiter(map(len, rest), dtype=np.intp, count=count) > 1).tolist()
     else:

@@ -9,6 +9,7 @@ per-row work happens only for the few rows with problems.
 
 from __future__ import annotations
 
+import hashlib
 from pathlib import Path
 
 import numpy as np
@@ -18,6 +19,7 @@ from ..errors import ReadError
 from ..records import ActigraphyRecord, Problem
 from ..timeutil import zone
 from ._csvtext import (
+    BOM,
     MAX_DETAILED,
     find_column,
     is_blank_row,
@@ -50,7 +52,9 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> 
         raise ReadError(path, str(exc)) from None
     names = dict(ACTIGRAPHY_DEFAULT_COLUMNS)
     names.update(columns or {})
-    raw = read_raw(path)
+    raw = read_raw(path, with_bom=True)
+    digest = hashlib.sha256(raw).hexdigest()  # provenance of exactly the bytes read
+    raw = raw[3:] if raw.startswith(BOM) else raw
     fast = _read_plain(raw, names, tz) if FAST_PATH else None
     if fast is not None:
         header, instants, lines_ok, values, local_problems = fast
@@ -107,7 +111,8 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> 
     off_wrist, marker = flags_out["off_wrist"], flags_out["marker"]
 
     return ActigraphyRecord(
-        path=path, start=start, epoch_s=epoch_s, counts=counts, off_wrist=off_wrist, marker=marker, problems=problems
+        path=path, start=start, epoch_s=epoch_s, counts=counts, off_wrist=off_wrist, marker=marker, problems=problems,
+        sha256=digest,
     )
 
 

@@ -9,6 +9,7 @@ the digital samples and the header's calibration.
 
 from __future__ import annotations
 
+import hashlib
 import math
 import os
 import re
@@ -77,10 +78,12 @@ def read_hypnogram(
     label_table, code_table = _checked_options(tz, epoch_s, labels, signal_codes)
     tokens: list[str] = []
     try:
-        raw, size = _read_header_bytes(path)
+        raw, size, content = _read_header_bytes(path)
         tokens = edfplus.patient_tokens(raw) if len(raw) >= 88 else []
         header = edfplus.read_header(path, raw, size)
-        hypnogram = _hypnogram(path, header, tz, float(epoch_s), label_table, code_table, signal_label)
+        hypnogram = _hypnogram(path, header, tz, float(epoch_s), label_table, code_table, signal_label, content)
+        if content is not None:
+            hypnogram.sha256 = hashlib.sha256(content).hexdigest()  # provenance of exactly the bytes read
     except ReadError as exc:
         raise ReadError(path, _scrub(exc.reason, tokens)) from None
     except MemoryError:
@@ -109,11 +112,22 @@ def _checked_options(tz, epoch_s, labels, signal_codes) -> tuple[dict[str, str],
     return merged_labels(labels), merged_signal_codes(signal_codes)
 
 
-def _read_header_bytes(path: Path) -> tuple[bytes, int]:
-    """The fixed header and, if the signal count is readable, all signal headers (read-only)."""
+WHOLE_FILE_BYTES = 16 << 20  # files up to this size are read in one go; larger ones are memory-mapped
+
+
+def _read_header_bytes(path: Path) -> tuple[bytes, int, bytes | None]:
+    """The fixed header and, if the signal count is readable, all signal headers (read-only);
+    and the whole file's bytes when it is small (a hypnogram file), else None."""
     try:
         with open(path, "rb") as fh:
             size = os.fstat(fh.fileno()).st_size
+            if size <= WHOLE_FILE_BYTES:
+                content = fh.read()
+                raw = content[:256]
+                ns_text = raw[252:256].decode("ascii", errors="replace").strip()
+                if len(raw) == 256 and ns_text.isdigit() and 0 < int(ns_text) <= 9999:
+                    raw = content[: 256 * (int(ns_text) + 1)]
+                return raw, len(content), content
             raw = fh.read(256)
             ns_text = raw[252:256].decode("ascii", errors="replace").strip()
             if len(raw) == 256 and ns_text.isdigit() and 0 < int(ns_text) <= 9999:
@@ -124,7 +138,7 @@ def _read_header_bytes(path: Path) -> tuple[bytes, int]:
         raise ReadError(path, "is a directory, not an EDF file") from None
     except OSError as exc:
         raise ReadError(path, f"cannot open the file ({exc.strerror or exc})") from None
-    return raw, size
+    return raw, size, None
 
 
 def _scrub(text: str, tokens: list[str]) -> str:
@@ -145,8 +159,8 @@ def _seconds(s: float) -> pd.Timedelta:
     return pd.Timedelta(seconds=float(s))
 
 
-def _hypnogram(path, header, tz, epoch_s, label_table, code_table, signal_label) -> Hypnogram:
-    records = edfplus.data_records(path, header)
+def _hypnogram(path, header, tz, epoch_s, label_table, code_table, signal_label, content=None) -> Hypnogram:
+    records = edfplus.data_records(path, header, content)
     ann = edfplus.read_annotations(path, header, records)
     problems = [Problem("warning", note) for note in (*header.notes, *ann.notes)]
     header_start = localize(header.start, tz)
@@ -208,10 +222,13 @@ def _record_onsets(header, ann, problems) -> np.ndarray:
 def _classify(annotations, epoch_s, label_table):
     """Split annotations into stage rows (onset, duration, code, unknown label, weak) and lights markers."""
     rows, lights = [], []
+    seen: dict[str, tuple[str, str | None, str]] = {}  # a hypnogram repeats a few texts many times
     for a in annotations:
-        norm = normalise_label(a.text)
-        target = label_table.get(norm)
-        label = " ".join(a.text.split())
+        known = seen.get(a.text)
+        if known is None:
+            norm = normalise_label(a.text)
+            known = seen[a.text] = (norm, label_table.get(norm), " ".join(a.text.split()))
+        norm, target, label = known
         if target is not None:
             rows.append((a.onset_s, a.duration_s, TARGET_CODES[target], None, False))
         elif (marker := lights_marker(a.text)) is not None:

@@ -72,6 +72,7 @@ class ScoredParticipant:
     rhythm: dict[str, float] = field(default_factory=dict)
     windows: dict[tuple[str, str], Window] = field(default_factory=dict)  # (night, source) -> window
     diary: dict[str, DiaryEntry] = field(default_factory=dict)  # ISO night -> usable diary row
+    digests: dict[Path, str] = field(default_factory=dict)  # SHA-256 of the bytes the readers read, by file
 
 
 def _row(participant: str, night: dt.date, source: str) -> dict:

@@ -30,51 +30,138 @@ def _elapsed_ns(start: pd.Timestamp, epoch_s: float, n: int) -> np.ndarray:
     return times.as_unit("ns").asi8
 
 
-def _utc_offsets_ns(utc_ns: np.ndarray, tz) -> np.ndarray:
-    """Local UTC offset (ns) at each instant of a sorted-by-construction regular series.
+def _ask_offsets(utc_ns: np.ndarray, tz) -> np.ndarray:
+    """Local UTC offset (ns) of the zone at each UTC instant (ns)."""
+    idx = pd.DatetimeIndex(utc_ns.astype("datetime64[ns]")).tz_localize("UTC").tz_convert(tz)
+    return idx.tz_localize(None).as_unit("ns").asi8 - utc_ns
 
-    The time zone is asked only on a coarse grid (about one instant per hour)
-    and, exactly, at every instant of a coarse step whose two ends differ.
-    This equals asking at every instant because no zone in the tz database
-    changes its offset twice within an hour (the shortest gap between two
-    transitions is about a week).
+
+def _offset_segments(u0: int, step_ns: int, n: int, tz) -> list[tuple[int, int, int]]:
+    """Epochs 0..n-1 at u0 + i·step_ns (UTC ns) as runs of one UTC offset: [(first, end, offset_ns)].
+
+    The zone is asked on a coarse grid (about one instant per hour) and,
+    exactly, at every instant of a coarse step whose two ends differ. This
+    finds every change because no zone in the tz database changes its offset
+    twice within an hour (the shortest gap between two transitions is about a
+    week).
     """
-    n = utc_ns.size
-
-    def ask(ns: np.ndarray) -> np.ndarray:
-        idx = pd.DatetimeIndex(ns.astype("datetime64[ns]")).tz_localize("UTC").tz_convert(tz)
-        return idx.tz_localize(None).as_unit("ns").asi8 - ns
-
-    if n < 2:
-        return ask(utc_ns)
-    span = int(utc_ns[-1] - utc_ns[0])
-    if span <= 0:  # not a forward series: ask at every instant
-        return ask(utc_ns)
-    step = max(1, int(_NS_PER_HOUR // max(span // (n - 1), 1)))  # epochs per coarse step (≤ 1 h)
+    if tz is None:
+        return [(0, n, 0)]
+    step = max(1, int(_NS_PER_HOUR // max(step_ns, 1)))  # epochs per coarse step (≤ 1 h)
     grid = np.arange(0, n, step)
     if grid[-1] != n - 1:
         grid = np.r_[grid, n - 1]
-    coarse = ask(utc_ns[grid])
-    offsets = np.repeat(coarse[:-1], np.diff(grid))
-    offsets = np.r_[offsets, coarse[-1:]]
+    coarse = _ask_offsets(u0 + grid * np.int64(step_ns), tz)
+    cuts, values = [0], [int(coarse[0])]
     for k in np.flatnonzero(coarse[1:] != coarse[:-1]):
         lo, hi = int(grid[k]), int(grid[k + 1])
-        offsets[lo: hi + 1] = ask(utc_ns[lo: hi + 1])
-    return offsets
+        fine = _ask_offsets(u0 + np.arange(lo, hi + 1, dtype=np.int64) * np.int64(step_ns), tz)
+        for c in np.flatnonzero(fine[1:] != fine[:-1]):
+            cuts.append(lo + int(c) + 1)
+            values.append(int(fine[c + 1]))
+    cuts.append(n)
+    return [(cuts[i], cuts[i + 1], values[i]) for i in range(len(values))]
+
+
+def _hour_runs(start: pd.Timestamp, epoch_s: float, n: int):
+    """The local wall-clock hours of epochs 0..n-1 as runs.
+
+    Returns (first epoch of each run, UTC ns of its local hour start, local
+    hour of day 0-23, zone), or None where elapsed time is not whole
+    nanoseconds per epoch (then ``_hour_keys`` works epoch by epoch). Within
+    one UTC offset the wall clock is an arithmetic series, so the epochs where
+    it enters a new hour are found by arithmetic, not by converting every
+    epoch: the same bins as ``_hour_keys`` (tests/test_scoring_rhythm.py).
+    """
+    ts = pd.Timestamp(start)
+    step_ns = float(epoch_s) * 1e9
+    if not (step_ns.is_integer() and float(epoch_s).is_integer()) or n == 0:
+        return None
+    step_ns = int(step_ns)
+    u0 = int(ts.as_unit("ns").value)
+    firsts, keys, hours = [], [], []
+    for a, b, off in _offset_segments(u0, step_ns, n, ts.tz):
+        w0 = u0 + off + a * step_ns  # wall clock (ns) of epoch a
+        h_first, h_last = w0 // _NS_PER_HOUR, (w0 + (b - 1 - a) * step_ns) // _NS_PER_HOUR
+        h = np.arange(h_first + 1, h_last + 1, dtype=np.int64)  # hours entered after epoch a
+        enter = a + (h * _NS_PER_HOUR - w0 + step_ns - 1) // step_ns  # first epoch at or after each hour start
+        firsts.append(np.r_[a, enter])
+        wall_hour = np.r_[h_first, h]
+        keys.append(wall_hour * _NS_PER_HOUR - off)
+        hours.append(wall_hour % HOURS_PER_DAY)
+    first, key, hour = np.concatenate(firsts), np.concatenate(keys), np.concatenate(hours)
+    if np.any(np.diff(key) < 0):
+        return None  # hour starts out of order: leave it to the epoch-by-epoch path
+    new = np.r_[True, key[1:] != key[:-1]]  # a run split only by an offset change stays one bin
+    return first[new], key[new], hour[new], ts.tz
 
 
 def _hour_keys(start: pd.Timestamp, epoch_s: float, n: int):
-    """Per epoch: UTC ns of its local wall-clock hour start, the wall-clock hour count, the zone."""
+    """Per epoch: UTC ns of its local wall-clock hour start, and the zone (the general path)."""
     tz = pd.Timestamp(start).tz
     utc_ns = _elapsed_ns(start, epoch_s, n)
     if tz is None:
-        wall_hour = utc_ns // _NS_PER_HOUR
-        return wall_hour * _NS_PER_HOUR, wall_hour, tz
-    offset = _utc_offsets_ns(utc_ns, tz)
-    wall_hour = (utc_ns + offset) // _NS_PER_HOUR
-    key = wall_hour * _NS_PER_HOUR
+        return (utc_ns // _NS_PER_HOUR) * _NS_PER_HOUR, tz
+    offset = np.empty(n, dtype=np.int64)
+    if n < 2 or int(utc_ns[-1] - utc_ns[0]) <= 0:
+        offset[:] = _ask_offsets(utc_ns, tz)
+    else:
+        step = int(utc_ns[-1] - utc_ns[0]) // (n - 1)
+        for a, b, off in _offset_segments(int(utc_ns[0]), step, n, tz):
+            offset[a:b] = off
+        # the segments assume a regular series; check them where the grid is not exact
+        if not np.array_equal(utc_ns, utc_ns[0] + np.arange(n, dtype=np.int64) * step):
+            offset = _ask_offsets(utc_ns, tz)
+    key = ((utc_ns + offset) // _NS_PER_HOUR) * _NS_PER_HOUR
     key -= offset
-    return key, wall_hour, tz
+    return key, tz
+
+
+def _hourly(start, epoch_s, counts, valid, min_valid_fraction):
+    """Hourly means (counts per minute) as arrays: UTC ns of each hour start, local hour of day, mean, zone."""
+    counts = np.asarray(counts, dtype=float)
+    valid = np.asarray(valid, dtype=bool)
+    if counts.ndim != 1 or counts.shape != valid.shape:
+        raise ValueError(
+            f"counts and valid must be 1-D arrays of the same length, got {counts.shape} and {valid.shape}"
+        )
+    if not epoch_s > 0 or 3600.0 / float(epoch_s) < 1:
+        raise ValueError(f"epoch_s must be a positive number of seconds up to 3600, got {epoch_s!r}")
+    if not 0 < min_valid_fraction <= 1:
+        raise ValueError(f"min_valid_fraction must be in (0, 1], got {min_valid_fraction!r}")
+    tz = pd.Timestamp(start).tz
+    empty = np.array([], dtype=np.int64)
+    if counts.size == 0:
+        return empty, empty, np.array([], dtype=float), tz
+    ok = valid & ~np.isnan(counts)
+    runs = _hour_runs(start, epoch_s, counts.size)
+    if runs is not None:
+        first, bins, hour, tz = runs
+        n_ok = np.add.reduceat(ok.astype(np.float64), first)
+        total = np.add.reduceat(np.where(ok, counts, 0.0), first)
+    else:
+        key, tz = _hour_keys(start, epoch_s, counts.size)
+        step = np.diff(key)
+        if (step >= 0).all():  # elapsed time runs forward: hour bins are runs of equal keys
+            new = np.r_[True, step != 0]
+            bins, inverse = key[new], np.cumsum(new) - 1
+        else:
+            bins, inverse = np.unique(key, return_inverse=True)
+        n_ok = np.bincount(inverse, weights=ok.astype(float), minlength=bins.size)
+        total = np.bincount(inverse, weights=np.where(ok, counts, 0.0), minlength=bins.size)
+        hour = None
+    per_hour = 3600.0 / float(epoch_s)
+    enough = n_ok >= min_valid_fraction * per_hour - 1e-9
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean = np.where(enough & (n_ok > 0), total / n_ok, np.nan) * (60.0 / float(epoch_s))
+    if hour is None:
+        hour = np.asarray(_hour_index(bins, tz).hour, dtype=np.int64)
+    return bins, hour, mean, tz
+
+
+def _hour_index(bins: np.ndarray, tz) -> pd.DatetimeIndex:
+    index = pd.DatetimeIndex(pd.to_datetime(bins, unit="ns", utc=True), name="hour")
+    return index.tz_convert(tz) if tz is not None else index.tz_localize(None)
 
 
 def hourly_means(
@@ -92,36 +179,8 @@ def hourly_means(
     valid (``valid`` True and count not NaN), so partial first/last hours
     and non-wear drop out. Index: tz-aware hour starts (local), named "hour".
     """
-    counts = np.asarray(counts, dtype=float)
-    valid = np.asarray(valid, dtype=bool)
-    if counts.ndim != 1 or counts.shape != valid.shape:
-        raise ValueError(
-            f"counts and valid must be 1-D arrays of the same length, got {counts.shape} and {valid.shape}"
-        )
-    if not epoch_s > 0 or 3600.0 / float(epoch_s) < 1:
-        raise ValueError(f"epoch_s must be a positive number of seconds up to 3600, got {epoch_s!r}")
-    if not 0 < min_valid_fraction <= 1:
-        raise ValueError(f"min_valid_fraction must be in (0, 1], got {min_valid_fraction!r}")
-    tz = pd.Timestamp(start).tz
-    if counts.size == 0:
-        return pd.Series([], index=pd.DatetimeIndex([], tz=tz, name="hour"), dtype=float, name="counts_per_min")
-    key, _, tz = _hour_keys(start, epoch_s, counts.size)
-    step = np.diff(key)
-    if (step >= 0).all():  # elapsed time runs forward: hour bins are runs of equal keys (np.unique's answer)
-        first = np.r_[True, step != 0]
-        bins, inverse = key[first], np.cumsum(first) - 1
-    else:
-        bins, inverse = np.unique(key, return_inverse=True)
-    ok = valid & ~np.isnan(counts)
-    n_ok = np.bincount(inverse, weights=ok.astype(float), minlength=bins.size)
-    total = np.bincount(inverse, weights=np.where(ok, counts, 0.0), minlength=bins.size)
-    per_hour = 3600.0 / float(epoch_s)
-    enough = n_ok >= min_valid_fraction * per_hour - 1e-9
-    with np.errstate(invalid="ignore", divide="ignore"):
-        mean = np.where(enough & (n_ok > 0), total / n_ok, np.nan) * (60.0 / float(epoch_s))
-    index = pd.DatetimeIndex(pd.to_datetime(bins, unit="ns", utc=True), name="hour")
-    index = index.tz_convert(tz) if tz is not None else index.tz_localize(None)
-    return pd.Series(mean, index=index, name="counts_per_min")
+    bins, _, mean, tz = _hourly(start, epoch_s, counts, valid, min_valid_fraction)
+    return pd.Series(mean, index=_hour_index(bins, tz), name="counts_per_min")
 
 
 def _circular_window_means(profile: np.ndarray, width: int) -> np.ndarray:
@@ -157,16 +216,14 @@ def rest_activity_rhythm(
     Units: M10 and L5 in counts per minute. ``n_days`` = valid hours / 24.
     Values that cannot be computed (no variance, too few hours) are NaN.
     """
-    hm = hourly_means(start, epoch_s, counts, valid, min_valid_fraction=min_valid_fraction)
+    _, hours, x_all, _ = _hourly(start, epoch_s, counts, valid, min_valid_fraction)
     nan = float("nan")
     out = {k: nan for k in (*RHYTHM_PARAMETERS, "m10_onset_h", "l5_onset_h")}
-    x_all = hm.to_numpy(dtype=float)
     ok = ~np.isnan(x_all)
     n = int(ok.sum())
     out["n_days"] = n / HOURS_PER_DAY
     if n == 0:
         return out
-    hours = np.asarray(hm.index.hour, dtype=np.int64)
     x = x_all[ok]
     h = hours[ok]
     xbar = x.mean()
