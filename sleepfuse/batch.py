@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 
 from . import RESEARCH_CAUTION, __version__
+from ._alloc import tune_allocator
 from .atomic import atomic_path, write_text
 from .cache import library_versions
 from .config import StudyConfig, load_config
@@ -86,6 +87,7 @@ def run_participant(config: StudyConfig, job: ParticipantJob, inputs: list[dict]
     ``inputs`` are the files' provenance records if already made (checksums
     are computed once, by the caller); otherwise they are made here.
     """
+    tune_allocator()  # once per process (forked workers inherit it; Dask workers set it here)
     scored, entries = process_participant(config, job)
     qc = QCLog(list(entries))
     try:
@@ -141,7 +143,8 @@ def _run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
               progress: Callable[[str, int, int], None] | None, *,
               inputs: list[list[dict]] | None = None, scheduler: str | None = None,
               on_done: Callable[[int, ParticipantOutcome], None] | None = None,
-              done_before: int = 0, total: int | None = None) -> list[ParticipantOutcome]:
+              done_before: int = 0, total: int | None = None,
+              pool: ProcessPoolExecutor | None = None) -> list[ParticipantOutcome]:
     """Run ``run_participant`` for every job: here, in a process pool or on a Dask cluster.
 
     Outcomes come back sorted by participant whichever way they ran, so the
@@ -170,8 +173,11 @@ def _run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
                 progress(job.participant, done_before + k, total)
             finish(k, run_participant(config, job, inputs[k]), k + 1)
     else:
-        _preload()
-        with ProcessPoolExecutor(max_workers=min(workers, n)) as pool:
+        own = pool is None  # a pool of its own, or the caller's (batch keeps it for writing the tables)
+        if own:
+            _preload()
+            pool = ProcessPoolExecutor(max_workers=min(workers, n))
+        try:
             futures = {pool.submit(run_participant, config, job, inputs[k]): k for k, job in enumerate(jobs)}
             for i, fut in enumerate(as_completed(futures)):
                 k = futures[fut]
@@ -180,9 +186,20 @@ def _run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
                 except Exception as exc:  # a crashed worker loses one participant, not the study
                     outcome = failed_outcome(config, jobs[k], exc, inputs[k])
                 finish(k, outcome, i + 1)
+        finally:
+            if own:
+                pool.shutdown(wait=True)
     if progress:
         progress("", done_before + n, total)
     return sorted(outcomes, key=lambda o: o.participant)
+
+
+def _process_pool(options: BatchOptions, n_jobs: int) -> ProcessPoolExecutor | None:
+    """The worker pool of a run with --workers N > 1 and no Dask scheduler (None otherwise)."""
+    if options.scheduler or options.workers <= 1 or n_jobs <= 1:
+        return None
+    _preload()
+    return ProcessPoolExecutor(max_workers=min(options.workers, n_jobs))
 
 
 def _preload() -> None:
@@ -201,14 +218,20 @@ def hash_inputs(config: StudyConfig, jobs: list[ParticipantJob], workers: int = 
 
 
 def build_tables(config: StudyConfig, outcomes: list[ParticipantOutcome], qc: QCLog, options: BatchOptions,
-                 decisions: list[Decision] = ()) -> dict[str, pd.DataFrame]:
-    """All output tables from the participants' outcomes, review decisions honoured."""
+                 decisions: list[Decision] = (),
+                 nights_ready: Callable[[pd.DataFrame], None] | None = None) -> dict[str, pd.DataFrame]:
+    """All output tables from the participants' outcomes, review decisions honoured.
+
+    ``nights_ready(nights)`` is called as soon as the night table is final (batch
+    starts writing it while the other tables are built)."""
     from .scoring.nights import ScoredParticipant
 
     scored = [ScoredParticipant(o.participant, rows=o.rows, rhythm=o.rhythm) for o in outcomes]
     for o in outcomes:
         qc.extend(o.qc)
     nights = apply_decisions(night_table(scored), list(decisions))
+    if nights_ready is not None:
+        nights_ready(nights)
     rhythm = rhythm_table(scored)
     matrix = participant_matrix(nights, rhythm, min_nights=options.min_nights, zscore=options.zscore,
                                 participants=[o.participant for o in outcomes])
@@ -291,23 +314,43 @@ def run_batch(
     if options.format not in FORMATS:
         raise ValueError(f"format {options.format!r} not in {FORMATS}")
     started = dt.datetime.now(dt.timezone.utc)
+    tune_allocator()  # before the pool forks, so its workers inherit it
     config = config if config is not None else load_config(study)
     qc = QCLog()
     decisions = load_decisions(study)
     jobs, files = plan_jobs(config, qc)
     from .cache import run_cached
 
-    outcomes, cache_report = run_cached(config, jobs, options, qc, progress)
-    tables = build_tables(config, outcomes, qc, options, decisions)
+    out = Path(options.out)
+    pool = _process_pool(options, len(jobs))
+    try:
+        outcomes, cache_report = run_cached(config, jobs, options, qc, progress, pool=pool)
+        out.mkdir(parents=True, exist_ok=True)
+        # provenance.json marks a complete run: remove an older one first, so a run cut short
+        # never leaves new tables beside an old run's provenance
+        (out / "provenance.json").unlink(missing_ok=True)
+        early: dict[str, object] = {}
+
+        def nights_ready(nights: pd.DataFrame) -> None:  # the largest table: written by a worker meanwhile
+            if pool is not None:
+                early["nights"] = pool.submit(write_table, nights, out / "nights", options.format)
+
+        tables = build_tables(config, outcomes, qc, options, decisions, nights_ready)
+        written = []
+        for name in OUTPUT_TABLES:
+            path = None
+            if name in early:
+                try:
+                    path = early[name].result()
+                except Exception:  # noqa: BLE001 - a lost worker: write it here instead
+                    path = None
+            written.append(path or write_table(tables[name], out / name, options.format))
+    finally:
+        if pool is not None:
+            pool.shutdown(wait=True)
     inputs = [i for o in outcomes for i in o.inputs]
     seen = {i["file"] for i in inputs}
     inputs += [_input_record(config, p, "diary") for p in files if _rel(config, p) not in seen]
-    out = Path(options.out)
-    out.mkdir(parents=True, exist_ok=True)
-    # provenance.json marks a complete run: remove an older one first, so a run cut short
-    # never leaves new tables beside an old run's provenance
-    (out / "provenance.json").unlink(missing_ok=True)
-    written = [write_table(tables[name], out / name, options.format) for name in OUTPUT_TABLES]
     if options.plots:
         written += write_plots(tables, out)
     nights = tables["nights"]

@@ -235,8 +235,10 @@ class CacheReport:
 
 
 def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", options: "BatchOptions", qc: QCLog,
-               progress: Callable[[str, int, int], None] | None = None) -> "tuple[list[ParticipantOutcome], CacheReport]":
-    """Outcomes of every job: unchanged participants from the cache, the rest computed and stored."""
+               progress: Callable[[str, int, int], None] | None = None,
+               pool=None) -> "tuple[list[ParticipantOutcome], CacheReport]":
+    """Outcomes of every job: unchanged participants from the cache, the rest computed and stored
+    (in ``pool``, a process pool, when given)."""
     from .batch import _rel, _run_jobs, hash_inputs
 
     report = CacheReport(used=False, reason="--no-cache" if not options.cache else "")
@@ -248,7 +250,7 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", options: "Ba
             report.reason = str(exc)
             qc.info(f"incremental cache not used: {exc}; every participant computed", file=CACHE_DIR)
     if cache is None:  # each worker checksums its own participant's files (in parallel, no cache key needed)
-        outcomes = _run_jobs(config, jobs, options.workers, progress, scheduler=options.scheduler)
+        outcomes = _run_jobs(config, jobs, options.workers, progress, scheduler=options.scheduler, pool=pool)
         report.recomputed = len(outcomes)
         return outcomes, report
 
@@ -290,7 +292,8 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", options: "Ba
 
     try:
         computed = _run_jobs(config, todo_jobs, options.workers, progress, inputs=[inputs[k] for k in todo],
-                             scheduler=options.scheduler, on_done=store, done_before=len(hits), total=len(jobs))
+                             scheduler=options.scheduler, on_done=store, done_before=len(hits), total=len(jobs),
+                             pool=pool)
     finally:
         try:
             cache.close()

@@ -56,3 +56,24 @@ def test_localize_wall_reads_the_autumn_hour_twice_in_file_order():
     out, ok, problems = _localize_wall(wall.astype("datetime64[us]"), np.arange(wall.size) + 2, "Europe/Berlin")
     assert ok.all() and problems == []
     np.testing.assert_array_equal(out, utc.view(np.int64))
+
+
+@pytest.mark.parametrize("tz,start,end", WINDOWS + [
+    ("Europe/Berlin", "2026-06-01", "2026-06-15"), ("America/Chicago", "2026-01-05", "2026-01-19"),
+    ("Australia/Lord_Howe", "2026-07-01", "2026-07-15"), ("UTC", "2026-03-27", "2026-03-31"),
+    ("Asia/Kathmandu", "2026-05-01", "2026-05-09"),
+])
+def test_single_offset_shortcut_answers_only_when_one_offset_holds(tz, start, end):
+    # Reference: pandas tz_localize of every wall time (IANA tz database via zoneinfo).
+    from sleepfuse.readers._csvtime import _single_offset
+
+    wall = np.arange(np.datetime64(start, "us"), np.datetime64(end, "us"), np.timedelta64(30, "s"))
+    utc = reference(wall, tz)
+    w = wall.view(np.int64)
+    offsets = set((w - utc)[utc != NAT].tolist())
+    one = len(offsets) == 1 and (utc != NAT).all()
+    got = _single_offset(w, tz)
+    if one:
+        assert got == offsets.pop()
+    else:
+        assert got is None

@@ -91,8 +91,13 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> 
     else:
         counts_row, count_problems = _parse_counts(rows[col["counts"]], lines_ok, instants, tz)
         problems += count_problems
-    counts = np.full(n, np.nan)
-    counts[place] = counts_row[first_of_slot]
+    # every row kept, one per epoch in order (the usual file): place and first_of_slot are both 0..n-1
+    identity = place.size == n and first_of_slot.size == counts_row.size
+    if identity:
+        counts = np.array(counts_row, dtype=np.float64)
+    else:
+        counts = np.full(n, np.nan)
+        counts[place] = counts_row[first_of_slot]
 
     flags_out: dict[str, np.ndarray | None] = {"off_wrist": None, "marker": None}
     for key in flags_out:
@@ -105,8 +110,11 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> 
                 continue
             flags, flag_problems = _parse_flags(rows[col[key]], lines_ok, instants, tz, key, blank_ok=key == "marker")
             problems += flag_problems
-        arr = np.zeros(n, dtype=bool)
-        arr[place] = flags[first_of_slot]
+        if identity:
+            arr = np.array(flags, dtype=bool)
+        else:
+            arr = np.zeros(n, dtype=bool)
+            arr[place] = flags[first_of_slot]
         flags_out[key] = arr
     off_wrist, marker = flags_out["off_wrist"], flags_out["marker"]
 
