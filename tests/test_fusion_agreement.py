@@ -360,3 +360,29 @@ def test_mismatched_lengths_raise_clear_error():
         agreement([1.0, 2.0, 3.0], [1.0, 2.0])
     with pytest.raises(ValueError, match="one ID per night"):
         agreement([1.0, 2.0, 3.0], [1.0, 2.0, 3.0], ["A"])
+
+
+def test_paired_nights_equal_a_pandas_inner_merge():
+    # Reference: pandas DataFrame.merge(how="inner") on participant and night, in the test rows' order.
+    from sleepfuse.fusion.pairs import paired_nights, shared_parameters
+
+    rng = np.random.default_rng(8)
+    rows = []
+    for pid in ("P3", "P1", "P2"):
+        for night in ("2026-03-02", "2026-03-01", "2026-03-03"):
+            for source in ("psg", "actigraphy", "diary"):
+                if rng.random() < 0.8:
+                    rows.append({"participant": pid, "night": night, "source": source,
+                                 "included": bool(rng.random() < 0.85),
+                                 **{p: float(rng.normal(400, 30)) for p in ("tib_min", "tst_min", "sol_min", "waso_min",
+                                                                             "se_pct", "nwak", "lps_min", "spt_min",
+                                                                             "terminal_wake_min")}})
+    nights = pd.DataFrame(rows)
+    for test, ref in (("actigraphy", "psg"), ("diary", "actigraphy")):
+        params = [p for p in shared_parameters(test, ref) if p in nights]
+        inc = nights[nights["included"]]
+        a = inc.loc[inc["source"] == test, ["participant", "night", *params]]
+        b = inc.loc[inc["source"] == ref, ["participant", "night", *params]]
+        expected = a.merge(b, on=["participant", "night"], how="inner", suffixes=("_test", "_ref"))
+        got = paired_nights(nights[["participant", "night", "source", "included", *params]], test, ref)
+        pd.testing.assert_frame_equal(got.reset_index(drop=True), expected.reset_index(drop=True))

@@ -179,3 +179,17 @@ def test_identities_hold_for_random_hypnograms(codes, epoch_s, bout):
     assert 0 <= p["nwak"] <= np.count_nonzero(inside == W)
     staged_sum = p["n1_min"] + p["n2_min"] + p["n3_min"] + p["rem_min"]
     assert staged_sum <= p["tst_min"] + 1e-9
+
+
+def test_true_runs_equal_the_true_rows_of_the_run_length_encoding():
+    # Common practice: run-length encoding; the shortcut keeps only the runs of True.
+    from sleepfuse.scoring.parameters import _runs, _true_runs
+
+    rng = np.random.default_rng(5)
+    for n in (0, 1, 2, 7, 300):
+        for p in (0.0, 0.3, 0.9, 1.0):
+            x = rng.random(n) < p
+            starts, lengths, values = _runs(x)
+            t_starts, t_lengths = _true_runs(x)
+            np.testing.assert_array_equal(t_starts, starts[values.astype(bool)])
+            np.testing.assert_array_equal(t_lengths, lengths[values.astype(bool)])

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import numpy as np
 import pandas as pd
 
 from ..definitions import PAIRS, PARAMETERS, pair_name
@@ -24,7 +25,17 @@ def paired_nights(nights: pd.DataFrame, test: str, reference: str) -> pd.DataFra
     keys = ["participant", "night"]
     a = inc.loc[inc["source"] == test, keys + params]
     b = inc.loc[inc["source"] == reference, keys + params]
-    return a.merge(b, on=keys, how="inner", suffixes=("_test", "_ref"))
+    b_keys = pd.MultiIndex.from_arrays([b["participant"], b["night"]])
+    if not b_keys.is_unique:  # never in a night table; pandas' merge handles it all the same
+        return a.merge(b, on=keys, how="inner", suffixes=("_test", "_ref"))
+    # An inner merge on unique reference keys, in the test rows' order (as DataFrame.merge gives it).
+    where = b_keys.get_indexer(pd.MultiIndex.from_arrays([a["participant"], a["night"]]))
+    hit = np.flatnonzero(where >= 0)
+    left, right = a.iloc[hit], b.iloc[where[hit]]
+    data = {k: left[k].to_numpy() for k in keys}
+    data.update({f"{p}_test": left[p].to_numpy() for p in params})
+    data.update({f"{p}_ref": right[p].to_numpy() for p in params})
+    return pd.DataFrame(data)
 
 
 def agreement_table(nights: pd.DataFrame, *, confidence: float = 0.95) -> pd.DataFrame:

@@ -63,6 +63,13 @@ def _runs(x: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return starts, lengths, x[starts]
 
 
+def _true_runs(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Starts and lengths of the runs of True in a 1-D bool array (the True rows of ``_runs``)."""
+    edges = np.diff(x.view(np.int8), prepend=np.int8(0), append=np.int8(0))
+    starts = np.flatnonzero(edges == 1)
+    return starts, np.flatnonzero(edges == -1) - starts
+
+
 def _min_epochs(minutes: float, epoch_min: float, *, at_least: int = 1) -> int:
     """Smallest whole number of epochs spanning at least ``minutes`` (float-safe)."""
     return max(at_least, math.ceil(minutes / epoch_min - 1e-9))
@@ -167,16 +174,16 @@ def sleep_parameters(
     out["waso_min"] = float(np.count_nonzero(wake)) * ep
 
     # Latency to persistent sleep: first sleep run of >= lps_run_min minutes.
-    starts, lengths, values = _runs(sleep)
+    starts, lengths = _true_runs(sleep)
     need = _min_epochs(lps_run_min, ep)
-    persistent = np.flatnonzero(values & (lengths >= need))
+    persistent = np.flatnonzero(lengths >= need)
     out["lps_min"] = float(starts[persistent[0]]) * ep if persistent.size else _NAN
 
     # Wake bouts inside the sleep period (the SPT starts and ends on sleep, so
     # every wake run in it is interior and maximal).
-    w_starts, w_lengths, w_values = _runs(wake)
+    _, w_lengths = _true_runs(wake)
     bout = _min_epochs(min_wake_bout_min, ep) if min_wake_bout_min > 0 else 1
-    out["nwak"] = float(np.count_nonzero(w_values & (w_lengths >= bout)))
+    out["nwak"] = float(np.count_nonzero(w_lengths >= bout))
 
     if staged:
         out["rem_latency_min"] = float(int(np.argmax(codes == _REM)) - first) * ep if count[_REM] else _NAN
