@@ -31,10 +31,15 @@ def tune_allocator() -> bool:
         return True
     if not sys.platform.startswith("linux") or os.environ.get("SLEEPFUSE_MALLOC_TUNING", "1") == "0":
         return False
-    try:
-        libc = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6")
-        mallopt = libc.mallopt
-    except (OSError, AttributeError):  # not glibc (musl, ...): nothing to tune
+    try:  # the glibc soname first: find_library would start a subprocess (ldconfig) to look for it
+        libc = ctypes.CDLL("libc.so.6")
+    except OSError:
+        try:
+            libc = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so")
+        except OSError:
+            return False
+    mallopt = getattr(libc, "mallopt", None)
+    if mallopt is None:  # not glibc (musl, ...): nothing to tune
         return False
     mallopt.argtypes = (ctypes.c_int, ctypes.c_int)
     mallopt.restype = ctypes.c_int

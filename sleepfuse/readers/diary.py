@@ -10,6 +10,7 @@ out for that night with an error naming the line.
 from __future__ import annotations
 
 import datetime as dt
+import functools
 import math
 import re
 from pathlib import Path
@@ -170,6 +171,17 @@ def _parse_night(text: str) -> dt.date | None:
         return None
 
 
+@functools.lru_cache(maxsize=1 << 16)
+def _quiet_day(info: dt.tzinfo, day: dt.date) -> bool:
+    """True if zone ``info`` keeps one UTC offset all through ``day`` (asked at 00:00, 12:00 and the
+    next 00:00, both PEP 495 folds: no zone changes its offset twice within 12 h). Shared by every
+    diary of a study: they cover the same calendar days."""
+    start = dt.datetime.combine(day, dt.time())
+    offsets = {(start + dt.timedelta(hours=h)).replace(tzinfo=info, fold=f).utcoffset()
+               for h in (0, 12, 24) for f in (0, 1)}
+    return len(offsets) == 1
+
+
 class _ClockReader:
     """Diary clock times on a night in one zone, as ``clock_on_night`` places them, with their DST note.
 
@@ -187,6 +199,8 @@ class _ClockReader:
             value = clock_on_night(clock, night, self.tz)
             return value, _dst_note(value, clock)
         day = night if clock >= NOON else night + dt.timedelta(days=1)
+        if self._quiet(day):  # one offset all day: the wall time is the time, nothing to note
+            return pd.Timestamp(dt.datetime.combine(day, clock, tzinfo=self.info)), ""
         first = self._utc(dt.datetime.combine(day, clock), 0)
         local = first.astimezone(self.info)
         value = pd.Timestamp(local)
@@ -195,6 +209,9 @@ class _ClockReader:
         if self._utc(local.replace(tzinfo=None), 1) != first:
             return value, f"occurs twice on that day (autumn change); read as the first, {value:%H:%M%z}"
         return value, ""
+
+    def _quiet(self, day: dt.date) -> bool:
+        return _quiet_day(self.info, day)
 
     def _utc(self, wall: dt.datetime, fold: int) -> dt.datetime:
         """The instant (UTC) of wall time ``wall``; ``fold`` as in PEP 495."""
