@@ -334,7 +334,7 @@ def _signal_annotations(
         keeper = first & np.fromiter(map(bytes.startswith, rest, repeat(b"\x14")), dtype=bool, count=count)
         kept = np.flatnonzero(keeper).tolist()
         if kept:
-            keeper_onsets[owner[kept]] = np.array(onset_raw, dtype="S")[kept].astype(np.float64)
+            keeper_onsets[owner[kept]] = list(map(float, map(onset_raw.__getitem__, kept)))
         bad = 0
         carriers = np.flatnonzero(np.fromiter(map(len, rest), dtype=np.intp, count=count) > 1).tolist()
     else:
