@@ -212,6 +212,13 @@ class OutcomeCache:
         if time.monotonic() - self._last_commit > _COMMIT_EVERY_S:
             self.commit()
 
+    def participants(self) -> set[str]:
+        """Participants with a stored entry (whether or not it is still valid)."""
+        try:
+            return {row[0] for row in self._conn.execute("SELECT participant FROM outcomes")}
+        except sqlite3.DatabaseError:
+            return set()
+
     def commit(self) -> None:
         self._conn.commit()
         self._last_commit = time.monotonic()
@@ -254,7 +261,13 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", options: "Ba
         report.recomputed = len(outcomes)
         return outcomes, report
 
-    inputs = hash_inputs(config, jobs, options.workers)
+    # A participant with no stored entry is recomputed whatever its checksums: its worker
+    # checksums its files (in parallel) and the key is made from them when it is stored.
+    stored = cache.participants()
+    known = [k for k, job in enumerate(jobs) if job.participant in stored]
+    inputs: list[list[dict] | None] = [None] * len(jobs)
+    for k, found in zip(known, hash_inputs(config, [jobs[k] for k in known], options.workers)):
+        inputs[k] = found
 
     report.used, report.path = True, _rel(config, cache.path)
     for note in cache.notes:
@@ -264,6 +277,10 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", options: "Ba
     hits: list = []
     todo: list[int] = []
     for k, job in enumerate(jobs):
+        if inputs[k] is None:  # nothing stored for this participant: a miss, keyed when stored
+            keys.append(None)
+            todo.append(k)
+            continue
         ok = all(i.get("sha256") for i in inputs[k])  # a file that cannot be hashed is never cached
         key = participant_key(cfg, job, inputs[k], libs) if ok else None
         keys.append(key)
@@ -282,7 +299,10 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", options: "Ba
     broken: list[str] = []
 
     def store(j: int, outcome: "ParticipantOutcome") -> None:
-        key = keys[todo[j]]
+        k = todo[j]
+        key = keys[k]
+        if inputs[k] is None and all(i.get("sha256") for i in outcome.inputs):  # checksummed by its worker
+            key = participant_key(cfg, jobs[k], outcome.inputs, libs)
         if key is None or broken or not cacheable(outcome):
             return
         try:

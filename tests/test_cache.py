@@ -261,3 +261,22 @@ def test_cli_no_cache_and_counts_on_stderr(study, tmp_path, capsys):
     assert "0 computed, 3 from cache" in capsys.readouterr().err
     assert main(["batch", str(study), "--out", str(tmp_path / "o3"), "--no-cache"]) == 0
     assert "3 computed, 0 from cache" in capsys.readouterr().err
+
+
+def test_first_run_leaves_checksums_to_the_workers_and_keys_them_alike(study, tmp_path, monkeypatch):
+    # An empty cache: nobody can be a hit, so the main process checksums nothing before the run;
+    # the keys stored from the workers' checksums must be the ones the next run computes itself.
+    hashed: list[int] = []
+    real = batch.hash_inputs
+
+    def counting(config, jobs, workers=2):
+        hashed.append(len(jobs))
+        return real(config, jobs, workers)
+
+    monkeypatch.setattr(batch, "hash_inputs", counting)
+    first = run(study, tmp_path / "o1")
+    assert sum(hashed) == 0 and first.n_recomputed == len(IDS)
+    hashed.clear()
+    second = run(study, tmp_path / "o2")
+    assert sum(hashed) == len(IDS) and (second.n_recomputed, second.n_from_cache) == (0, len(IDS))
+    assert [i["sha256"] for i in second.provenance["inputs"]] == [i["sha256"] for i in first.provenance["inputs"]]

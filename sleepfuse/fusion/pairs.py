@@ -19,22 +19,34 @@ def shared_parameters(test: str, reference: str) -> list[str]:
 
 
 def paired_nights(nights: pd.DataFrame, test: str, reference: str) -> pd.DataFrame:
-    """One row per (participant, night) that both sources have and include, with both values of every shared parameter."""
+    """One row per (participant, night) that both sources have and include, with both values of every shared parameter.
+
+    The rows of an inner merge on participant and night, in the test rows'
+    order (as ``DataFrame.merge`` gives them; tests/test_fusion_agreement.py
+    compares the two), found with an index lookup on plain arrays.
+    """
     params = shared_parameters(test, reference)
-    inc = nights[nights["included"]]
     keys = ["participant", "night"]
-    a = inc.loc[inc["source"] == test, keys + params]
-    b = inc.loc[inc["source"] == reference, keys + params]
-    b_keys = pd.MultiIndex.from_arrays([b["participant"], b["night"]])
+    included = nights["included"].to_numpy(dtype=bool)
+    source = nights["source"].to_numpy(dtype=object)
+    a_rows = np.flatnonzero(included & (source == test))
+    b_rows = np.flatnonzero(included & (source == reference))
+    who = nights["participant"].to_numpy(dtype=object)
+    night = nights["night"].to_numpy(dtype=object)
+    b_keys = pd.MultiIndex.from_arrays([who[b_rows], night[b_rows]])
     if not b_keys.is_unique:  # never in a night table; pandas' merge handles it all the same
+        a = nights.iloc[a_rows][keys + params]
+        b = nights.iloc[b_rows][keys + params]
         return a.merge(b, on=keys, how="inner", suffixes=("_test", "_ref"))
-    # An inner merge on unique reference keys, in the test rows' order (as DataFrame.merge gives it).
-    where = b_keys.get_indexer(pd.MultiIndex.from_arrays([a["participant"], a["night"]]))
+    where = b_keys.get_indexer(pd.MultiIndex.from_arrays([who[a_rows], night[a_rows]]))
     hit = np.flatnonzero(where >= 0)
-    left, right = a.iloc[hit], b.iloc[where[hit]]
-    data = {k: left[k].to_numpy() for k in keys}
-    data.update({f"{p}_test": left[p].to_numpy() for p in params})
-    data.update({f"{p}_ref": right[p].to_numpy() for p in params})
+    left, right = a_rows[hit], b_rows[where[hit]]
+    data: dict[str, object] = {"participant": nights["participant"].iloc[left].to_numpy(),
+                               "night": nights["night"].iloc[left].to_numpy()}
+    for p in params:
+        data[f"{p}_test"] = nights[p].to_numpy()[left]
+    for p in params:
+        data[f"{p}_ref"] = nights[p].to_numpy()[right]
     return pd.DataFrame(data)
 
 
