@@ -15,9 +15,11 @@ field (bytes 8-88) is never decoded into a stored value; only
 from __future__ import annotations
 
 import datetime as dt
+import math
 import re
 from dataclasses import dataclass, field
 from itertools import repeat
+from operator import getitem
 from pathlib import Path
 
 import numpy as np
@@ -80,6 +82,17 @@ class Annotation:
 @dataclass
 class AnnotationSet:
     annotations: list[Annotation]
+    record_onsets_s: np.ndarray  # per data record, NaN where no time-keeping TAL
+    notes: list[str] = field(default_factory=list)
+
+
+@dataclass
+class AnnotationLists:
+    """What ``read_annotations`` reads, as parallel lists instead of one object per annotation."""
+
+    onsets_s: list[float]
+    durations_s: list[float | None]
+    texts: list[str]
     record_onsets_s: np.ndarray  # per data record, NaN where no time-keeping TAL
     notes: list[str] = field(default_factory=list)
 
@@ -163,7 +176,7 @@ def read_header(path: Path, raw: bytes, file_bytes: int) -> EdfHeader:
     variant = "EDF+D" if reserved.startswith("EDF+D") else "EDF+C" if reserved.startswith("EDF+C") else "EDF"
     n_records = _field_int(path, raw[236:244], "number of data records")
     duration = _field_float(path, raw[244:252], "duration of a data record")
-    if not np.isfinite(duration) or duration < 0:
+    if not math.isfinite(duration) or duration < 0:
         raise ReadError(path, f"header record duration {duration} s is not a non-negative number")
 
     sig = raw[256:header_bytes]
@@ -255,32 +268,47 @@ def parse_tals(block: bytes) -> tuple[list[tuple[float, float | None, list[str]]
 def read_annotations(path: Path, header: EdfHeader, records: np.ndarray) -> AnnotationSet:
     """All annotations of every annotation signal plus each record's time-keeping onset.
 
-    Bulk path: the TALs (runs of non-NUL bytes inside one data record) of a signal
-    are located with numpy and, when all have the usual shape, read with one regular
-    expression pass; otherwise each TAL goes through ``parse_tals``. Same result as
-    ``read_annotations_careful`` (checked in tests/test_readers_edf_fastpath.py).
+    Bulk path (``read_annotation_lists``), same result as ``read_annotations_careful``
+    (checked in tests/test_readers_edf_fastpath.py and tests/test_readers_edf_speed_equivalence.py).
+    """
+    found = read_annotation_lists(path, header, records)
+    annotations = list(map(Annotation, found.onsets_s, found.durations_s, found.texts))
+    return AnnotationSet(annotations, found.record_onsets_s, found.notes)
+
+
+def read_annotation_lists(path: Path, header: EdfHeader, records: np.ndarray) -> AnnotationLists:
+    """``read_annotations`` as parallel lists (onset, duration, text), in the same order.
+
+    The TALs (runs of non-NUL bytes inside one data record) of a signal are located with
+    numpy and, when all have the usual shape, read with one regular expression pass;
+    otherwise each TAL goes through ``parse_tals``. When every record of the first
+    annotation signal opens with a plain time-keeping TAL, those TALs are read at once
+    (``_plain_keepers``) and only the rest of the records goes through that path.
     """
     indices = header.annotation_indices
     n = header.n_records
     if not indices:
-        return AnnotationSet([], np.arange(n) * header.record_duration_s)
+        return AnnotationLists([], [], [], np.arange(n) * header.record_duration_s)
     onsets = np.full(n, np.nan)
-    per_signal: list[tuple[list[Annotation], list[int]]] = []
+    per_signal: list[tuple[list[float], list[float | None], list[str], list[int]]] = []
     bad = missing_keeper = 0
     for j, k in enumerate(indices):
         s = header.signals[k]
         block = np.ascontiguousarray(records[:, s.offset : s.offset + 2 * s.n_samples])
-        annotations, owners, n_bad, n_missing = _signal_annotations(block, onsets if j == 0 else None)
-        per_signal.append((annotations, owners))
+        *columns, n_bad, n_missing = _signal_annotations(block, onsets if j == 0 else None)
+        per_signal.append(columns)
         bad += n_bad
         missing_keeper += n_missing
+    notes = _annotation_notes(bad, missing_keeper)
     if len(per_signal) == 1:
-        annotations = per_signal[0][0]
-    else:  # record by record, then signal by signal, as the careful path reads them
-        pooled = [a for anns, _ in per_signal for a in anns]
-        owner = np.array([r for _, rs in per_signal for r in rs], dtype=np.int64)
-        annotations = [pooled[i] for i in np.argsort(owner, kind="stable").tolist()]
-    return AnnotationSet(annotations, onsets, _annotation_notes(bad, missing_keeper))
+        on, du, tx, _ = per_signal[0]
+        return AnnotationLists(on, du, tx, onsets, notes)
+    # record by record, then signal by signal, as the careful path reads them
+    owner = np.array([r for *_, rs in per_signal for r in rs], dtype=np.int64)
+    order = np.argsort(owner, kind="stable").tolist()
+    pooled = [[v for cols in per_signal for v in cols[c]] for c in range(3)]
+    on, du, tx = ([column[i] for i in order] for column in pooled)
+    return AnnotationLists(on, du, tx, onsets, notes)
 
 
 _NUMBER = rb"[+-]?+(?:\d++(?:\.\d*+)?+|\.\d++)"  # possessive: a TAL never needs backtracking
@@ -293,10 +321,26 @@ _PLAIN_TAL = re.compile(
 
 def _signal_annotations(
     block: np.ndarray, keeper_onsets: np.ndarray | None
-) -> tuple[list[Annotation], list[int], int, int]:
-    """Annotations of one annotation signal (bytes, shape n_records × n_bytes), the data record
-    of each, the count of malformed TALs and of records without a time-keeping TAL. For the
-    first annotation signal (``keeper_onsets`` given) each record's time-keeping onset is stored."""
+) -> tuple[list[float], list[float | None], list[str], list[int], int, int]:
+    """Annotations of one annotation signal (bytes, shape n_records × n_bytes) as lists of
+    onsets, durations and texts, the data record of each, the count of malformed TALs and of
+    records without a time-keeping TAL. For the first annotation signal (``keeper_onsets``
+    given) each record's time-keeping onset is stored."""
+    if keeper_onsets is not None:
+        plain = _plain_keepers(block)
+        if plain is not None:  # every record opens with a plain time-keeping TAL: read the rest only
+            keepers, rows, cut = plain
+            keeper_onsets[:] = keepers
+            if rows.size == 0:
+                return [], [], [], [], 0, 0
+            found = _tals_after_keepers(block, rows, cut)
+            if found is not None:
+                return found
+            tail = block[rows]  # the rest of those records, their time-keeping TAL blanked to NUL
+            size = min(block.shape[1], _KEEPER_WINDOW)
+            tail[:, :size] &= ~_BEFORE[cut[rows], :size]
+            on, du, tx, owners, bad, _ = _signal_annotations(tail, None)
+            return on, du, tx, rows[owners].tolist(), bad, 0
     n, width = block.shape
     padded = np.zeros((n, width + 1), dtype=np.uint8)  # a NUL after every record
     padded[:, :width] = block
@@ -322,12 +366,17 @@ def _signal_annotations(
         groups = [(None, None, None)] * len(tals)
     count = len(groups)
     if count == 0:
-        return [], [], len(starts), 0
-    first = np.zeros(count, dtype=bool)
+        return [], [], [], [], len(starts), 0
+    if tals is None and keeper_onsets is None:
+        return (*_plain_tal_lists(groups, owner.tolist()), 0, 0)
+    kept: list[int] = []
+    n_firsts = 0
     if keeper_onsets is not None:
+        first = np.zeros(count, dtype=bool)
         first[0] = True
         first[1:] = owner[1:] != owner[:-1]
-    firsts = np.flatnonzero(first).tolist()
+        firsts = np.flatnonzero(first).tolist()
+        n_firsts = len(firsts)
     if tals is None:
         onset_raw, _, rest = zip(*groups)
         # A first TAL whose first text is empty is the time-keeping TAL; b"" and b"\x14" hold no text.
@@ -336,14 +385,17 @@ def _signal_annotations(
         if kept:
             keeper_onsets[owner[kept]] = list(map(float, map(onset_raw.__getitem__, kept)))
         bad = 0
-        carriers = np.flatnonzero(np.fromiter(map(len, rest), dtype=np.intp, count=count) > 1).tolist()
+        carriers = [i for i, r in enumerate(rest) if len(r) > 1]
     else:
-        kept = [i for i in firsts if tals[i][2] and tals[i][2][0] == ""]
-        if kept:
-            keeper_onsets[owner[kept]] = [tals[i][0] for i in kept]
+        if keeper_onsets is not None:
+            kept = [i for i in firsts if tals[i][2] and tals[i][2][0] == ""]
+            if kept:
+                keeper_onsets[owner[kept]] = [tals[i][0] for i in kept]
         carriers = range(count)
     kept_set = set(kept)
-    annotations: list[Annotation] = []
+    onsets: list[float] = []
+    durations: list[float | None] = []
+    texts_out: list[str] = []
     owners: list[int] = []
     owner_list = owner.tolist()
     for i in carriers:
@@ -358,9 +410,112 @@ def _signal_annotations(
             texts = texts[1:]
         for text in texts:
             if text != "":
-                annotations.append(Annotation(onset, duration, text))
+                onsets.append(onset)
+                durations.append(duration)
+                texts_out.append(text)
                 owners.append(owner_list[i])
-    return annotations, owners, bad, len(firsts) - len(kept)
+    return onsets, durations, texts_out, owners, bad, n_firsts - len(kept)
+
+
+def _plain_tal_lists(
+    groups: list[tuple[bytes, bytes, bytes]], owners: list[int]
+) -> tuple[list[float], list[float | None], list[str], list[int]]:
+    """Onsets, durations, texts and records of TALs that ``_PLAIN_TAL`` matched (``owners``: the
+    record of each), none of them a time-keeping TAL: what ``parse_tals`` reads from them."""
+    onset_raw, duration_raw, rest = zip(*groups)
+    if min(map(len, rest)) > 1 and b"".join(rest).count(b"\x14") == len(rest):
+        # The usual shape: each TAL holds one text, and it is not empty.
+        text_of = {r: r[:-1].decode("utf-8", errors="replace") for r in set(rest)}
+        duration_of = {d: float(d) if d else None for d in set(duration_raw)}
+        return (list(map(float, onset_raw)), list(map(duration_of.__getitem__, duration_raw)),
+                list(map(text_of.__getitem__, rest)), owners)
+    onsets: list[float] = []
+    durations = []
+    texts_out: list[str] = []
+    owners_out: list[int] = []
+    for onset_i, d, rest_i, owner in zip(onset_raw, duration_raw, rest, owners):
+        if len(rest_i) > 1:  # b"" and b"\x14" hold no text
+            onset = float(onset_i)
+            duration = float(d) if d else None
+            for p in rest_i[:-1].split(b"\x14"):
+                if p:
+                    onsets.append(onset)
+                    durations.append(duration)
+                    texts_out.append(p.decode("utf-8", errors="replace"))
+                    owners_out.append(owner)
+    return onsets, durations, texts_out, owners_out
+
+
+def _tals_after_keepers(block: np.ndarray, rows: np.ndarray, cut: np.ndarray):
+    """The annotations of ``rows`` of ``block`` past their time-keeping TAL (the first ``cut``
+    bytes of each record) when all TALs there have the usual shape (``_PLAIN_TAL``); else None."""
+    width = block.shape[1]
+    records = block[rows].view(f"S{width}").ravel().tolist()  # trailing NULs dropped
+    # The bytes after each time-keeping TAL, leading NULs dropped: TALs (not empty) and NULs.
+    rests = list(map(bytes.lstrip, map(getitem, records, map(slice, cut[rows].tolist(), repeat(None))), repeat(b"\x00")))
+    joined = b"\x00" + b"\x00".join(rests) + b"\x00"  # NUL, TAL, NUL, TAL, ..., NUL if no record holds a NUL run
+    n_tals = joined.count(b"\x00") - 1
+    if n_tals == len(rests):  # one TAL in each record
+        owners = rows.tolist()
+    elif b"\x00\x00" not in joined:  # TALs one NUL apart: each NUL of a record starts one more TAL
+        owners = np.repeat(rows, np.fromiter(map(bytes.count, rests, repeat(b"\x00")), np.intp, len(rests)) + 1).tolist()
+    else:
+        tals, owners = [], []
+        for rest, owner in zip(rests, rows.tolist()):
+            found = [tal for tal in rest.split(b"\x00") if tal]
+            tals += found
+            owners += [owner] * len(found)
+        joined = b"\x00" + b"\x00".join(tals) + b"\x00"
+        n_tals = len(tals)
+    groups = _PLAIN_TAL.findall(joined)
+    if len(groups) != n_tals:
+        return None
+    return (*_plain_tal_lists(groups, owners), 0, 0)
+
+
+_KEEPER_WINDOW = 32  # bytes at the start of a record searched for a plain time-keeping TAL
+_BEFORE = np.where(np.arange(_KEEPER_WINDOW) < np.arange(_KEEPER_WINDOW + 1)[:, None], 0xFF, 0).astype(np.uint8)
+_BEFORE.flags.writeable = False  # row k: 0xFF in the columns before k, 0 from k on
+# Over these bytes, float() reads exactly the strings _TAL_NUMBER accepts, to the same value (no
+# exponent, blank, "_", inf or nan can occur), and raises ValueError for the others.
+_NUMBER_BYTES = b"0123456789+-."
+
+
+def _plain_keepers(block: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+    """If every record (row of ``block``) opens with a time-keeping TAL of the plain form
+    ``onset\x14\x14\x00``, the onset of each, the records that hold more than that TAL, and the
+    length of each record's TAL with its NUL; else None (the general path then reads the block).
+
+    Such a TAL is the first TAL of its record and well-formed, so ``parse_tals`` reads it as the
+    time-keeping TAL (onset ``float(onset bytes)``, empty first text, no other text), and the
+    rest of its record as if the TAL were not there. The onset bytes of such a TAL are digits,
+    signs and dots that ``_TAL_NUMBER`` accepts: of those, exactly the ones ``float`` reads.
+    """
+    n, width = block.shape
+    size = min(width, _KEEPER_WINDOW)
+    if n == 0 or size < 4 or not block.flags.c_contiguous:
+        return None
+    head = block[:, :size]
+    p = (head == 0x14).argmax(axis=1)  # the first \x14 of each record (0 if none)
+    cut = p + 3
+    if cut.max() > size:
+        return None
+    # Each record's bytes up to its first \x14 and the two bytes after it, trailing NULs dropped.
+    prefix = (head & _BEFORE[cut, :size]).view(f"S{size}").ravel()
+    if not (np.strings.str_len(prefix) == cut - 1).all():  # a NUL at p + 2, and none at p + 1
+        return None
+    joined = b"".join(prefix.tolist())
+    # Each text holds at most two \x14 (at p and p + 1; none comes before p), so 2 n of them
+    # means each is its onset bytes (no \x14) and \x14\x14.
+    if joined.count(b"\x14") != 2 * n or joined.translate(None, _NUMBER_BYTES + b"\x14"):
+        return None
+    try:
+        onsets = np.fromiter(map(float, joined.split(b"\x14\x14")[:-1]), np.float64, n)
+    except ValueError:  # not a number as _TAL_NUMBER has it
+        return None
+    lengths = np.strings.str_len(block.view(f"S{width}").ravel())  # up to the last non-NUL byte
+    rows = np.flatnonzero(lengths > cut - 1)  # records holding more than their time-keeping TAL
+    return onsets, rows, cut
 
 
 def read_annotations_careful(path: Path, header: EdfHeader, records: np.ndarray) -> AnnotationSet:

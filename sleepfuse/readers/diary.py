@@ -81,29 +81,32 @@ def read_diary(
 
     values = table.values()
     filled = ~blank_rows(values)
-    records = values[filled]
-    lines = table.lines[filled]
+    records = values[filled].tolist()  # lists of str: plain indexing beats numpy's per cell
+    lines = table.lines[filled].tolist()
     if len(records) == 0:
         raise ReadError(path, "the file has a header but no diary rows")
 
+    j_night = col["night"]
+    j_who = col["participant"]
+    times = [(key, j, table.header[j]) for key in TIME_KEYS if (j := col[key]) is not None]
+    numbers = [(key, j, table.header[j]) for key in NUMBER_KEYS if (j := col[key]) is not None]
     entries: list[DiaryEntry] = []
     seen: dict[tuple[str, dt.date], int] = {}
-    for values, line in zip(records, lines):
-        line = int(line)
-        cell = {key: str(values[j]).strip() for key, j in col.items() if j is not None}
-        who = cell.get("participant") or participant
+    for row, line in zip(records, lines):
+        who = (str(row[j_who]).strip() if j_who is not None else "") or participant
         if not who:
             problems.append(Problem("warning", f"line {line}: no participant ID; row skipped"))
             continue
-        night = _parse_night(cell["night"])
+        night_text = str(row[j_night]).strip()
+        night = _parse_night(night_text)
         if night is None:
             problems.append(
-                Problem("warning", f"line {line}: night {cell['night'][:30]!r} is not a date (use YYYY-MM-DD); row skipped")
+                Problem("warning", f"line {line}: night {night_text[:30]!r} is not a date (use YYYY-MM-DD); row skipped")
             )
             continue
         entry = DiaryEntry(participant=who, night=night, line=line)
-        for key in TIME_KEYS:
-            text = cell.get(key, "")
+        for key, j, name in times:
+            text = str(row[j]).strip()
             if not text:
                 continue
             value, note = _parse_time(text, night, tz, clock)
@@ -111,7 +114,7 @@ def read_diary(
                 problems.append(
                     Problem(
                         "warning",
-                        f"line {line}, night {night}: column {table.header[col[key]]!r} ({key}) value {text[:30]!r} "
+                        f"line {line}, night {night}: column {name!r} ({key}) value {text[:30]!r} "
                         "is not a time (use HH:MM or ISO 8601); left empty",
                         night=night,
                         participant=who,
@@ -121,8 +124,8 @@ def read_diary(
                 setattr(entry, key, value)
                 if note:
                     problems.append(Problem("warning", f"line {line}, night {night}: {key} {text!r} {note}", time=value, night=night, participant=who))
-        for key in NUMBER_KEYS:
-            text = cell.get(key, "")
+        for key, j, name in numbers:
+            text = str(row[j]).strip()
             if not text:
                 continue
             number = _parse_number(text)
@@ -130,7 +133,7 @@ def read_diary(
                 problems.append(
                     Problem(
                         "warning",
-                        f"line {line}, night {night}: column {table.header[col[key]]!r} ({key}) value {text[:30]!r} "
+                        f"line {line}, night {night}: column {name!r} ({key}) value {text[:30]!r} "
                         "is not a number of zero or more; left empty",
                         night=night,
                         participant=who,
@@ -187,7 +190,15 @@ class _ClockReader:
 
     Works on zoneinfo datetimes (PEP 495) instead of one pandas conversion per
     cell; gives ``clock_on_night`` and ``_dst_note``'s results exactly
-    (tests/test_readers_diary.py compares them across DST changes)."""
+    (tests/test_readers_diary_clock.py and tests/test_readers_diary_speed_equivalence.py
+    compare them across DST changes).
+
+    Fast path: a wall time that maps to itself through UTC and has the same UTC
+    offset for fold=0 and fold=1 is neither in a spring gap nor repeated, so it
+    needs no note; that takes two offset look-ups and one ``fromutc``, the same
+    ``fromutc`` call (same argument) that ``astimezone`` makes in the careful
+    steps. Anything else (gap, repeat, odd zone data) takes the careful steps.
+    """
 
     def __init__(self, tz: str):
         self.tz = tz
@@ -195,12 +206,24 @@ class _ClockReader:
         self.info = info if isinstance(info, ZoneInfo) or info is dt.timezone.utc else None
 
     def __call__(self, clock: dt.time, night: dt.date) -> tuple[pd.Timestamp, str]:
-        if self.info is None:
+        info = self.info
+        if info is None:
             value = clock_on_night(clock, night, self.tz)
             return value, _dst_note(value, clock)
-        day = night if clock >= NOON else night + dt.timedelta(days=1)
-        if self._quiet(day):  # one offset all day: the wall time is the time, nothing to note
-            return pd.Timestamp(dt.datetime.combine(day, clock, tzinfo=self.info)), ""
+        day = night if clock >= NOON else night + _ONE_DAY
+        wall = _combine(day, clock, info)  # fold 0, as ``clock`` has fold 0
+        offset = info.utcoffset(wall)
+        local = info.fromutc(wall - offset)  # what ``astimezone`` from UTC gives: same call, same argument
+        if (
+            local.time() == clock
+            and local.date() == day
+            and info.utcoffset(_combine(day, clock.replace(fold=1))) == offset
+        ):
+            return pd.Timestamp(local), ""
+        return self._careful(clock, day)
+
+    def _careful(self, clock: dt.time, day: dt.date) -> tuple[pd.Timestamp, str]:
+        """The PEP 495 steps in full: UTC of the wall time, back to local, fold=1 for a repeat."""
         first = self._utc(dt.datetime.combine(day, clock), 0)
         local = first.astimezone(self.info)
         value = pd.Timestamp(local)
@@ -210,24 +233,40 @@ class _ClockReader:
             return value, f"occurs twice on that day (autumn change); read as the first, {value:%H:%M%z}"
         return value, ""
 
-    def _quiet(self, day: dt.date) -> bool:
-        return _quiet_day(self.info, day)
-
     def _utc(self, wall: dt.datetime, fold: int) -> dt.datetime:
         """The instant (UTC) of wall time ``wall``; ``fold`` as in PEP 495."""
         return wall.replace(tzinfo=self.info, fold=fold).astimezone(dt.timezone.utc).replace(fold=0)
+
+
+_ONE_DAY = dt.timedelta(days=1)
+_combine = dt.datetime.combine
+_CLOCKS: dict[str, dt.time | None] = {}  # clock text -> time (None: not a valid clock); text-only, no zone
+
+
+def _clock_of(text: str) -> dt.time | None | bool:
+    """The ``dt.time`` of an HH:MM[:SS] text; None if it looks like one but is out of range; False if not a clock."""
+    clock = _CLOCKS.get(text, False)
+    if clock is not False:
+        return clock
+    m = _CLOCK_RE.match(text)
+    if not m:
+        return False
+    hour, minute, second = int(m.group(1)), int(m.group(2)), int(m.group(3) or 0)
+    clock = None if hour > 23 or minute > 59 or second > 59 else dt.time(hour, minute, second)
+    if len(_CLOCKS) >= 4096:
+        _CLOCKS.clear()
+    _CLOCKS[text] = clock
+    return clock
 
 
 def _parse_time(
     text: str, night: dt.date, tz: str, clock_reader: _ClockReader | None = None
 ) -> tuple[pd.Timestamp | None, str]:
     """A diary clock time (noon rule) or ISO timestamp as a tz-aware local Timestamp, with a note if odd."""
-    m = _CLOCK_RE.match(text)
-    if m:
-        hour, minute, second = int(m.group(1)), int(m.group(2)), int(m.group(3) or 0)
-        if hour > 23 or minute > 59 or second > 59:
-            return None, ""
-        clock = dt.time(hour, minute, second)
+    clock = _clock_of(text)
+    if clock is None:
+        return None, ""
+    if clock is not False:
         if clock_reader is not None:
             return clock_reader(clock, night)
         value = clock_on_night(clock, night, tz)

@@ -9,11 +9,14 @@ the digital samples and the header's calibration.
 
 from __future__ import annotations
 
+import datetime as dt
+import functools
 import hashlib
 import math
 import os
 import re
 from pathlib import Path
+from zoneinfo import ZoneInfo
 
 import numpy as np
 import pandas as pd
@@ -39,6 +42,7 @@ from .stage_labels import (
 __all__ = ["read_hypnogram", "DEFAULT_STAGE_LABELS", "DEFAULT_SIGNAL_CODES", "stage_code"]
 
 MAX_RECORDING_DAYS = 14  # longer stage series are taken for a damaged file
+_PATH = type(Path())
 
 
 def read_hypnogram(
@@ -74,7 +78,7 @@ def read_hypnogram(
     Raises ReadError (file and reason) for any unreadable file and
     ConfigError for bad options. Patient fields are never returned.
     """
-    path = Path(path)
+    path = path if type(path) is _PATH else Path(path)  # a Path is immutable: no copy needed
     label_table, code_table = _checked_options(tz, epoch_s, labels, signal_codes)
     tokens: list[str] = []
     try:
@@ -119,19 +123,22 @@ def _read_header_bytes(path: Path) -> tuple[bytes, int, bytes | None]:
     """The fixed header and, if the signal count is readable, all signal headers (read-only);
     and the whole file's bytes when it is small (a hypnogram file), else None."""
     try:
-        with open(path, "rb") as fh:
-            size = os.fstat(fh.fileno()).st_size
+        fd = os.open(path, os.O_RDONLY)  # read-only; unbuffered reads, as open(path, "rb") would do them
+        try:
+            size = os.fstat(fd).st_size
             if size <= WHOLE_FILE_BYTES:
-                content = fh.read()
+                content = _read_to_end(fd, size + 1)
                 raw = content[:256]
                 ns_text = raw[252:256].decode("ascii", errors="replace").strip()
                 if len(raw) == 256 and ns_text.isdigit() and 0 < int(ns_text) <= 9999:
                     raw = content[: 256 * (int(ns_text) + 1)]
                 return raw, len(content), content
-            raw = fh.read(256)
+            raw = _read_up_to(fd, 256)
             ns_text = raw[252:256].decode("ascii", errors="replace").strip()
             if len(raw) == 256 and ns_text.isdigit() and 0 < int(ns_text) <= 9999:
-                raw += fh.read(256 * int(ns_text))
+                raw += _read_up_to(fd, 256 * int(ns_text))
+        finally:
+            os.close(fd)
     except FileNotFoundError:
         raise ReadError(path, "file not found") from None
     except IsADirectoryError:
@@ -139,6 +146,25 @@ def _read_header_bytes(path: Path) -> tuple[bytes, int, bytes | None]:
     except OSError as exc:
         raise ReadError(path, f"cannot open the file ({exc.strerror or exc})") from None
     return raw, size, None
+
+
+def _read_to_end(fd: int, first: int) -> bytes:
+    """All bytes from the file position to the end of the file (``first``: the size of the first read)."""
+    chunks = [os.read(fd, first)]
+    while chunks[-1]:
+        chunks.append(os.read(fd, 1 << 20))
+    return chunks[0] if len(chunks) == 2 else b"".join(chunks)
+
+
+def _read_up_to(fd: int, n: int) -> bytes:
+    """``n`` bytes, or fewer at the end of the file."""
+    data = os.read(fd, n)
+    while len(data) < n:
+        more = os.read(fd, n - len(data))
+        if not more:
+            break
+        data += more
+    return data
 
 
 def _scrub(text: str, tokens: list[str]) -> str:
@@ -161,15 +187,16 @@ def _seconds(s: float) -> pd.Timedelta:
 
 def _hypnogram(path, header, tz, epoch_s, label_table, code_table, signal_label, content=None) -> Hypnogram:
     records = edfplus.data_records(path, header, content)
-    ann = edfplus.read_annotations(path, header, records)
+    ann = edfplus.read_annotation_lists(path, header, records)
     problems = [Problem("warning", note) for note in (*header.notes, *ann.notes)]
-    header_start = localize(header.start, tz)
-    onsets = _record_onsets(header, ann, problems)
-    record_start = header_start + _seconds(onsets[0])
-
-    stage_rows, lights = _classify(ann.annotations, epoch_s, label_table)
+    onsets = _record_onsets(header, ann.record_onsets_s, problems)
+    stage_rows, lights = _classify(ann.onsets_s, ann.durations_s, ann.texts, epoch_s, label_table)
+    # The times, one after another (no step between them fails or reports anything).
+    header_start = _local_start(header.start, tz)
+    first_onset = float(onsets[0])
+    record_start = header_start + _seconds(first_onset)
     lights_off, lights_on = _lights(lights, header_start, problems)
-    strong = [row for row in stage_rows if not row[4]]
+    strong = any(not row[4] for row in stage_rows)
     signal_index = None if strong else find_hypnogram_signal(path, header, signal_label)
     if strong and signal_label:
         problems.append(
@@ -188,7 +215,7 @@ def _hypnogram(path, header, tz, epoch_s, label_table, code_table, signal_label,
         return Hypnogram(path, record_start, record_start, epoch_s, stages, lights_off, lights_on, unknown, problems)
     del records
     if not stage_rows:
-        seen = list(dict.fromkeys(" ".join(a.text.split())[:40] for a in ann.annotations))
+        seen = list(dict.fromkeys(" ".join(text.split())[:40] for text in ann.texts))
         found = f" (annotations found: {', '.join(map(repr, seen[:8]))}{', ...' if len(seen) > 8 else ''})" if seen else ""
         raise ReadError(
             path,
@@ -196,48 +223,98 @@ def _hypnogram(path, header, tz, epoch_s, label_table, code_table, signal_label,
             "labels in study.toml ([psg] labels) or name the signal that holds the hypnogram ([psg] signal_label)",
         )
     t0, stages, unknown = _stage_grid(path, stage_rows, epoch_s, header_start, problems)
-    start = header_start + _seconds(t0)
+    start = record_start if t0 == first_onset else header_start + _seconds(t0)  # the same sum, once
     return Hypnogram(path, record_start, start, epoch_s, stages, lights_off, lights_on, unknown, problems)
 
 
-def _record_onsets(header, ann, problems) -> np.ndarray:
-    """Onset (s from the header start) of every data record: the time-keeping TALs of EDF+,
-    else contiguous records from the first one (Kemp & Olivan 2003)."""
-    keep = ann.record_onsets_s
-    first = float(keep[0]) if np.isfinite(keep[0]) else 0.0
-    if not np.isfinite(first) or abs(first) > 86400 * MAX_RECORDING_DAYS:
+_UTC = dt.timezone.utc
+
+
+@functools.lru_cache(maxsize=64)
+def _pandas_zone(tz: str):
+    """The tzinfo that ``localize`` gives its results in ``tz`` (pandas picks it from the name)."""
+    return localize(dt.datetime(2000, 1, 1), tz).tzinfo
+
+
+def _local_start(naive: dt.datetime, tz: str) -> pd.Timestamp:
+    """``localize(naive, tz)`` for a header start (naive, whole seconds), built in one step when
+    the wall time exists once in ``tz`` (no spring-forward gap): the same instant, unit, zone and
+    fold (checked in tests/test_readers_edf_speed_equivalence.py)."""
+    tzinfo = _pandas_zone(tz)
+    if not isinstance(tzinfo, ZoneInfo) or naive.tzinfo is not None or naive.microsecond or naive.fold:
+        return localize(naive, tz)
+    local = naive.replace(tzinfo=tzinfo).astimezone(_UTC).astimezone(tzinfo)
+    if local.replace(tzinfo=None) != naive:
+        return localize(naive, tz)  # a gap time comes back shifted: localize's own path, same result
+    return pd.Timestamp(local)
+
+
+def _record_onsets(header, keep, problems) -> np.ndarray:
+    """Onset (s from the header start) of every data record: the time-keeping TALs of EDF+
+    (``keep``, NaN where a record has none), else contiguous records from the first one
+    (Kemp & Olivan 2003)."""
+    first = float(keep[0])
+    if not math.isfinite(first) or abs(first) > 86400 * MAX_RECORDING_DAYS:
         first = 0.0
     if first != 0.0 and not 0.0 <= first < 1.0:
         problems.append(Problem("info", f"the first data record starts {first:g} s after the header start time"))
-    contiguous = first + np.arange(header.n_records) * header.record_duration_s
+    contiguous = first + _record_steps(header.n_records, header.record_duration_s)
     if header.variant != "EDF+D":
         drift = np.abs(keep - contiguous)
-        if header.annotation_indices and np.nanmax(drift, initial=0.0) > 1e-3:
+        if header.annotation_indices and (drift > 1e-3).any():  # NaN (no time-keeping TAL) is no drift
             problems.append(Problem("warning", "EDF+C data records are not contiguous by their time-keeping "
                                                "annotations; records are taken as contiguous"))
         return contiguous
     return np.where(np.isfinite(keep), keep, contiguous)
 
 
-def _classify(annotations, epoch_s, label_table):
-    """Split annotations into stage rows (onset, duration, code, unknown label, weak) and lights markers."""
+@functools.lru_cache(maxsize=16)
+def _record_steps(n_records: int, record_duration_s: float) -> np.ndarray:
+    """np.arange(n_records) * record_duration_s, read-only: files of one study share it."""
+    steps = np.arange(n_records) * record_duration_s
+    steps.flags.writeable = False
+    return steps
+
+
+def _classify(onsets, durations, texts, epoch_s, label_table):
+    """Split annotations (parallel lists of onset, duration, text) into stage rows (onset,
+    duration or NaN, code, unknown label, weak) and lights markers (kind, onset)."""
     rows, lights = [], []
-    seen: dict[str, tuple[str, str | None, str]] = {}  # a hypnogram repeats a few texts many times
-    for a in annotations:
-        known = seen.get(a.text)
-        if known is None:
-            norm = normalise_label(a.text)
-            known = seen[a.text] = (norm, label_table.get(norm), " ".join(a.text.split()))
-        norm, target, label = known
-        if target is not None:
-            rows.append((a.onset_s, a.duration_s, TARGET_CODES[target], None, False))
-        elif (marker := lights_marker(a.text)) is not None:
-            lights.append((marker, a.onset_s))
-        elif is_stage_like(norm):
-            rows.append((a.onset_s, a.duration_s, int(Stage.UNSCORED), label, False))
-        elif a.duration_s and _whole_epochs(a.duration_s, epoch_s) and not is_event_text(norm):
-            rows.append((a.onset_s, a.duration_s, int(Stage.UNSCORED), label, True))
+    kinds: dict[str, tuple[int, object]] = {}  # a hypnogram repeats a few texts many times
+    unscored = int(Stage.UNSCORED)
+    for onset, duration, text in zip(onsets, durations, texts):
+        kind = kinds.get(text)
+        if kind is None:
+            kind = kinds[text] = _text_kind(text, label_table)
+        tag, value = kind
+        if tag == _STAGE:
+            rows.append((onset, math.nan if duration is None else duration, value, None, False))
+        elif tag == _LIGHTS:
+            lights.append((value, onset))
+        elif tag == _UNKNOWN_STAGE:
+            rows.append((onset, math.nan if duration is None else duration, unscored, value, False))
+        elif tag == _OTHER and duration and _whole_epochs(duration, epoch_s):
+            rows.append((onset, duration, unscored, value, True))
     return rows, lights
+
+
+_STAGE, _LIGHTS, _UNKNOWN_STAGE, _OTHER, _EVENT = range(5)
+
+
+def _text_kind(text: str, label_table) -> tuple[int, object]:
+    """What an annotation text is: a stage (code), a lights marker ("off"/"on"), an unknown
+    stage (its label), other text (its label: an unknown stage if it lasts whole epochs) or an event."""
+    norm = normalise_label(text)
+    target = label_table.get(norm)
+    if target is not None:
+        return _STAGE, TARGET_CODES[target]
+    marker = lights_marker(text)
+    if marker is not None:
+        return _LIGHTS, marker
+    label = " ".join(text.split())
+    if is_stage_like(norm):
+        return _UNKNOWN_STAGE, label
+    return (_EVENT, None) if is_event_text(norm) else (_OTHER, label)
 
 
 def _whole_epochs(duration_s: float, epoch_s: float) -> bool:
@@ -271,10 +348,11 @@ def _max_epochs(epoch_s: float) -> int:
 
 def _stage_grid(path, rows, epoch_s, header_start, problems):
     """Stage per epoch from stage rows, vectorised: later onset wins, unknown (weak) rows yield."""
-    onset = np.array([r[0] for r in rows], dtype=np.float64)
-    duration = np.array([np.nan if r[1] is None else r[1] for r in rows], dtype=np.float64)
-    code = np.array([r[2] for r in rows], dtype=np.int64)
-    weak = np.array([r[4] for r in rows], dtype=bool)
+    onset_t, duration_t, code_t, _, weak_t = zip(*rows)
+    onset = np.array(onset_t, dtype=np.float64)
+    duration = np.array(duration_t, dtype=np.float64)
+    code = np.array(code_t, dtype=np.int64)
+    weak = np.array(weak_t, dtype=bool)
     t0 = float(onset.min())
     position = (onset - t0) / epoch_s
     n_dur = np.where(duration > 0, duration / epoch_s, 1.0)
@@ -282,8 +360,10 @@ def _stage_grid(path, rows, epoch_s, header_start, problems):
         raise ReadError(path, f"stage annotations span more than {MAX_RECORDING_DAYS} days; "
                               "the annotation times are damaged")
     first = np.rint(position).astype(np.int64)
-    length = np.maximum(np.rint(n_dur), 1).astype(np.int64)
-    if length.sum() > 20 * _max_epochs(epoch_s):
+    whole = np.rint(n_dur)
+    length = np.maximum(whole, 1).astype(np.int64)
+    ends = np.cumsum(length)
+    if ends[-1] > 20 * _max_epochs(epoch_s):  # the sum of the lengths
         raise ReadError(path, "stage annotations overlap far beyond one recording; the annotation list is damaged")
     epoch_time = lambda i: header_start + _seconds(t0 + int(i) * epoch_s)  # noqa: E731
     off_grid = np.abs(position - first) > 1e-3
@@ -291,27 +371,34 @@ def _stage_grid(path, rows, epoch_s, header_start, problems):
         problems.append(Problem("info", f"stage annotations off the {epoch_s:g}-s epoch grid: {int(off_grid.sum())}; "
                                         "each is placed on the nearest epoch",
                                 epoch_time(first[off_grid][0])))
-    odd = (duration > 0) & (np.abs(n_dur - np.rint(n_dur)) > 1e-3)
+    odd = np.abs(n_dur - whole) > 1e-3  # never where duration <= 0 or NaN: there n_dur is 1.0
     if odd.any():
         problems.append(Problem("warning", f"stage annotations lasting a fraction of an epoch ({epoch_s:g} s): "
                                            f"{int(odd.sum())}; their length is rounded to whole epochs",
                                 epoch_time(first[odd][0])))
 
-    order = np.lexsort((np.arange(len(rows)), onset, ~weak))  # weak first, then by onset, then file order
-    rank = np.empty(len(rows), dtype=np.int64)
-    rank[order] = np.arange(len(rows))
-    owner = np.repeat(np.arange(len(rows)), length)
-    epoch = first[owner] + (np.arange(owner.size) - np.repeat(np.cumsum(length) - length, length))
+    epoch = np.arange(int(ends[-1])) + np.repeat(first - (ends - length), length)  # of each row, in turn
     n_epochs = int(epoch.max()) + 1
-    winner = np.full(n_epochs, -1, dtype=np.int64)
-    np.maximum.at(winner, epoch, rank[owner])
-    covered = winner >= 0
-    won_by = np.full(n_epochs, -1, dtype=np.int64)
-    won_by[covered] = order[winner[covered]]
     stages = np.full(n_epochs, int(Stage.UNSCORED), dtype=STAGE_DTYPE)
-    stages[covered] = code[won_by[covered]]
-
-    _report_overlaps(epoch, owner, code, weak, n_epochs, epoch_time, problems)
+    won_by = None  # the row that fills each epoch (-1: none), for unknown labels
+    if np.bincount(epoch, minlength=n_epochs).max() <= 1:
+        # No epoch is covered twice: each covered epoch goes to its one row, and nothing overlaps.
+        stages[epoch] = np.repeat(code, length)
+        if any(r[3] is not None for r in rows):
+            won_by = np.full(n_epochs, -1, dtype=np.int64)
+            won_by[epoch] = np.repeat(np.arange(len(rows)), length)
+    else:
+        won_by = np.full(n_epochs, -1, dtype=np.int64)
+        owner = np.repeat(np.arange(len(rows)), length)
+        order = np.lexsort((np.arange(len(rows)), onset, ~weak))  # weak first, then by onset, then file order
+        rank = np.empty(len(rows), dtype=np.int64)
+        rank[order] = np.arange(len(rows))
+        winner = np.full(n_epochs, -1, dtype=np.int64)
+        np.maximum.at(winner, epoch, rank[owner])
+        covered = winner >= 0
+        won_by[covered] = order[winner[covered]]
+        stages[covered] = code[won_by[covered]]
+        _report_overlaps(epoch, owner, code, weak, n_epochs, epoch_time, problems)
     unknown = _unknown_counts(rows, won_by, epoch_s, epoch_time, problems)
     return t0, stages, unknown
 
