@@ -183,6 +183,23 @@ def test_arbitrary_time_keeping_tals_and_followers_read_like_the_careful_path(re
     assert_same_annotations(header([width], len(block)), records_of([block], [width]))
 
 
+@settings(max_examples=200, deadline=None)
+@given(onsets=st.lists(st.sampled_from([b"+1", b"+10", b"+1.5", b"1", b"-1", b"+0", b"-0", b"+01", b"+60",
+                                        b"+1.2.3", b"++5", b"."]), min_size=1, max_size=8))
+def test_keeper_values_are_float_of_each_onset(onsets):
+    # Reference: float() of each onset, the conversion parse_tals applies (EDF+ TAL onsets).
+    texts = b"".join(o + b"\x14\x14" for o in onsets)
+    try:
+        expected = [float(o) for o in onsets]
+    except ValueError:
+        expected = None
+    got = edfplus._keeper_values(texts, len(onsets))
+    if expected is None:
+        assert got is None
+    else:
+        assert got.tolist() == expected and np.signbit(got).tolist() == [math.copysign(1, v) < 0 for v in expected]
+
+
 # --- the header start time -------------------------------------------------------------------------
 
 
@@ -208,9 +225,13 @@ def test_header_start_is_localize_to_the_unit_zone_and_fold(zone_name):
         assert (fast.value, fast.unit, fast.fold, repr(fast)) == (expected.value, expected.unit, expected.fold,
                                                                   repr(expected)), naive
         assert fast.tzinfo is expected.tzinfo
-        for seconds in (0.0, 0.3945312, 559.946, 1800.0):
+        for seconds in (0.0, -0.0, 0.3945312, 559.946, 1800.0):
             step = pd.Timedelta(seconds=seconds)
             assert repr(fast + step) == repr(expected + step) and (fast + step).unit == (expected + step).unit
+            after = edf._after(fast, seconds)  # the record start: the header start itself for 0 s
+            assert (after.value, after.unit, after.fold, repr(after)) == ((expected + step).value, (expected + step).unit,
+                                                                        (expected + step).fold, repr(expected + step))
+            assert after.tzinfo is (expected + step).tzinfo
         checked += 1
     assert checked >= 3
 

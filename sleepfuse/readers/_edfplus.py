@@ -452,13 +452,15 @@ def _tals_after_keepers(block: np.ndarray, rows: np.ndarray, cut: np.ndarray):
     width = block.shape[1]
     records = block[rows].view(f"S{width}").ravel().tolist()  # trailing NULs dropped
     # The bytes after each time-keeping TAL, leading NULs dropped: TALs (not empty) and NULs.
-    rests = list(map(bytes.lstrip, map(getitem, records, map(slice, cut[rows].tolist(), repeat(None))), repeat(b"\x00")))
+    after = map(getitem, records, map(slice, cut[rows].tolist(), repeat(None)))
+    rests = list(map(bytes.lstrip, after, repeat(b"\x00")))
     joined = b"\x00" + b"\x00".join(rests) + b"\x00"  # NUL, TAL, NUL, TAL, ..., NUL if no record holds a NUL run
     n_tals = joined.count(b"\x00") - 1
     if n_tals == len(rests):  # one TAL in each record
         owners = rows.tolist()
     elif b"\x00\x00" not in joined:  # TALs one NUL apart: each NUL of a record starts one more TAL
-        owners = np.repeat(rows, np.fromiter(map(bytes.count, rests, repeat(b"\x00")), np.intp, len(rests)) + 1).tolist()
+        more = np.fromiter(map(bytes.count, rests, repeat(b"\x00")), np.intp, len(rests))
+        owners = np.repeat(rows, more + 1).tolist()
     else:
         tals, owners = [], []
         for rest, owner in zip(rests, rows.tolist()):
@@ -479,6 +481,15 @@ _BEFORE.flags.writeable = False  # row k: 0xFF in the columns before k, 0 from k
 # Over these bytes, float() reads exactly the strings _TAL_NUMBER accepts, to the same value (no
 # exponent, blank, "_", inf or nan can occur), and raises ValueError for the others.
 _NUMBER_BYTES = b"0123456789+-."
+_str_len = getattr(np, "strings", np.char).str_len  # bytes up to the last non-NUL one (numpy 1.26: np.char)
+
+
+def _keeper_values(texts: bytes, n: int) -> np.ndarray | None:
+    """float() of each of the ``n`` onsets in ``texts`` ("onset\x14\x14" n times), or None if one is not a number."""
+    try:
+        return np.fromiter(map(float, texts.split(b"\x14\x14")[:-1]), np.float64, n)
+    except ValueError:
+        return None
 
 
 def _plain_keepers(block: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
@@ -502,18 +513,17 @@ def _plain_keepers(block: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarra
         return None
     # Each record's bytes up to its first \x14 and the two bytes after it, trailing NULs dropped.
     prefix = (head & _BEFORE[cut, :size]).view(f"S{size}").ravel()
-    if not (np.strings.str_len(prefix) == cut - 1).all():  # a NUL at p + 2, and none at p + 1
+    if not (_str_len(prefix) == cut - 1).all():  # a NUL at p + 2, and none at p + 1
         return None
     joined = b"".join(prefix.tolist())
     # Each text holds at most two \x14 (at p and p + 1; none comes before p), so 2 n of them
     # means each is its onset bytes (no \x14) and \x14\x14.
     if joined.count(b"\x14") != 2 * n or joined.translate(None, _NUMBER_BYTES + b"\x14"):
         return None
-    try:
-        onsets = np.fromiter(map(float, joined.split(b"\x14\x14")[:-1]), np.float64, n)
-    except ValueError:  # not a number as _TAL_NUMBER has it
+    onsets = _keeper_values(joined, n)
+    if onsets is None:  # not a number as _TAL_NUMBER has it
         return None
-    lengths = np.strings.str_len(block.view(f"S{width}").ravel())  # up to the last non-NUL byte
+    lengths = _str_len(block.view(f"S{width}").ravel())  # up to the last non-NUL byte
     rows = np.flatnonzero(lengths > cut - 1)  # records holding more than their time-keeping TAL
     return onsets, rows, cut
 

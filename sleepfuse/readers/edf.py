@@ -185,6 +185,17 @@ def _seconds(s: float) -> pd.Timedelta:
     return pd.Timedelta(seconds=float(s))
 
 
+_NO_TIME = _seconds(0.0)
+
+
+def _after(start: pd.Timestamp, seconds: float) -> pd.Timestamp:
+    """``start + _seconds(seconds)``; for 0 s in the unit of ``start``, ``start`` itself (the same
+    instant, unit, zone and fold; checked in tests/test_readers_edf_speed_equivalence.py)."""
+    if seconds == 0.0 and start.unit == _NO_TIME.unit:
+        return start
+    return start + _seconds(seconds)
+
+
 def _hypnogram(path, header, tz, epoch_s, label_table, code_table, signal_label, content=None) -> Hypnogram:
     records = edfplus.data_records(path, header, content)
     ann = edfplus.read_annotation_lists(path, header, records)
@@ -194,7 +205,7 @@ def _hypnogram(path, header, tz, epoch_s, label_table, code_table, signal_label,
     # The times, one after another (no step between them fails or reports anything).
     header_start = _local_start(header.start, tz)
     first_onset = float(onsets[0])
-    record_start = header_start + _seconds(first_onset)
+    record_start = _after(header_start, first_onset)
     lights_off, lights_on = _lights(lights, header_start, problems)
     strong = any(not row[4] for row in stage_rows)
     signal_index = None if strong else find_hypnogram_signal(path, header, signal_label)
@@ -258,7 +269,8 @@ def _record_onsets(header, keep, problems) -> np.ndarray:
         first = 0.0
     if first != 0.0 and not 0.0 <= first < 1.0:
         problems.append(Problem("info", f"the first data record starts {first:g} s after the header start time"))
-    contiguous = first + _record_steps(header.n_records, header.record_duration_s)
+    n, duration = header.n_records, header.record_duration_s
+    contiguous = first + (_record_steps(n, duration) if n <= 100_000 else np.arange(n) * duration)
     if header.variant != "EDF+D":
         drift = np.abs(keep - contiguous)
         if header.annotation_indices and (drift > 1e-3).any():  # NaN (no time-keeping TAL) is no drift
@@ -352,7 +364,6 @@ def _stage_grid(path, rows, epoch_s, header_start, problems):
     onset = np.array(onset_t, dtype=np.float64)
     duration = np.array(duration_t, dtype=np.float64)
     code = np.array(code_t, dtype=np.int64)
-    weak = np.array(weak_t, dtype=bool)
     t0 = float(onset.min())
     position = (onset - t0) / epoch_s
     n_dur = np.where(duration > 0, duration / epoch_s, 1.0)
@@ -389,6 +400,7 @@ def _stage_grid(path, rows, epoch_s, header_start, problems):
             won_by[epoch] = np.repeat(np.arange(len(rows)), length)
     else:
         won_by = np.full(n_epochs, -1, dtype=np.int64)
+        weak = np.array(weak_t, dtype=bool)
         owner = np.repeat(np.arange(len(rows)), length)
         order = np.lexsort((np.arange(len(rows)), onset, ~weak))  # weak first, then by onset, then file order
         rank = np.empty(len(rows), dtype=np.int64)
