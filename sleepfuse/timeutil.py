@@ -25,6 +25,28 @@ def zone(name: str) -> ZoneInfo:
         raise ValueError(f"unknown IANA time zone {name!r}") from exc
 
 
+_PANDAS_TZINFO: dict[str, tuple[ZoneInfo, dt.tzinfo]] = {}
+
+
+def pandas_tzinfo(tz: str) -> dt.tzinfo:
+    """The tzinfo object that ``localize`` (pandas) gives its results in zone ``tz``.
+
+    Remembered per name only while ``ZoneInfo(tz)`` still returns the same
+    object: after ``ZoneInfo.clear_cache()`` pandas hands out a new object and
+    so does this function. Readers that build timestamps by hand use it, so
+    theirs carry the very tzinfo of pandas' own (identity, not just equality).
+    """
+    key = zone(tz)
+    known = _PANDAS_TZINFO.get(tz)
+    if known is not None and known[0] is key:
+        return known[1]
+    info = localize(dt.datetime(2000, 1, 1), tz).tzinfo
+    if len(_PANDAS_TZINFO) >= 256:
+        _PANDAS_TZINFO.clear()
+    _PANDAS_TZINFO[tz] = (key, info)
+    return info
+
+
 def machine_timezone() -> str:
     """IANA name of the machine's zone, or 'UTC' if it cannot be found."""
     try:

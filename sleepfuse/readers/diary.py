@@ -10,7 +10,6 @@ out for that night with an error naming the line.
 from __future__ import annotations
 
 import datetime as dt
-import functools
 import math
 import re
 from pathlib import Path
@@ -21,7 +20,7 @@ import pandas as pd
 from ..config import DIARY_COLUMN_KEYS
 from ..errors import ReadError
 from ..records import Diary, DiaryEntry, Problem
-from ..timeutil import NOON, clock_on_night, localize, zone
+from ..timeutil import NOON, clock_on_night, localize, pandas_tzinfo, zone
 from ._csvtext import blank_rows, find_column, missing_column_message, ragged_problems, read_table
 
 DIARY_DEFAULT_COLUMNS = {k: k for k in DIARY_COLUMN_KEYS}
@@ -64,7 +63,7 @@ def read_diary(
     table = read_table(path)
     problems: list[Problem] = ragged_problems(table)
 
-    col = {key: find_column(table.header, names[key]) for key in DIARY_COLUMN_KEYS}
+    col = {key: _find_column(table.header, names[key]) for key in DIARY_COLUMN_KEYS}
     if col["night"] is None:
         raise ReadError(path, missing_column_message("night", names["night"], table.header, "diary"))
     if col["participant"] is None and not participant:
@@ -79,10 +78,10 @@ def read_diary(
             if key in col and col[key] is None and key != "night":
                 problems.append(Problem("warning", f"column {names[key]!r} (for {key}, set in study.toml) is not in the file"))
 
-    values = table.values()
-    filled = ~blank_rows(values)
-    records = values[filled].tolist()  # lists of str: plain indexing beats numpy's per cell
-    lines = table.lines[filled].tolist()
+    rows = table.values().tolist()  # lists of str: plain indexing beats numpy's per cell
+    filled = blank_rows(rows)
+    records = [row for row, blank in zip(rows, filled) if not blank]
+    lines = [line for line, blank in zip(table.lines.tolist(), filled) if not blank]
     if len(records) == 0:
         raise ReadError(path, "the file has a header but no diary rows")
 
@@ -90,6 +89,8 @@ def read_diary(
     j_who = col["participant"]
     times = [(key, j, table.header[j]) for key in TIME_KEYS if (j := col[key]) is not None]
     numbers = [(key, j, table.header[j]) for key in NUMBER_KEYS if (j := col[key]) is not None]
+    place = getattr(clock, "place", None)  # None: every time through _parse_time (the careful path)
+    clocks = _CLOCKS
     entries: list[DiaryEntry] = []
     seen: dict[tuple[str, dt.date], int] = {}
     for row, line in zip(records, lines):
@@ -109,7 +110,11 @@ def read_diary(
             text = str(row[j]).strip()
             if not text:
                 continue
-            value, note = _parse_time(text, night, tz, clock)
+            parsed = clocks.get(text)
+            if parsed is not None and place is not None:
+                value, note = place(parsed, night)  # an HH:MM[:SS] seen before: straight to the clock reader
+            else:
+                value, note = _parse_time(text, night, tz, clock)
             if value is None:
                 problems.append(
                     Problem(
@@ -128,7 +133,12 @@ def read_diary(
             text = str(row[j]).strip()
             if not text:
                 continue
-            number = _parse_number(text)
+            number = _NUMBERS.get(text, _UNSEEN)
+            if number is _UNSEEN:
+                number = _parse_number(text)
+                if len(_NUMBERS) >= 4096:
+                    _NUMBERS.clear()
+                _NUMBERS[text] = number
             if number is None:
                 problems.append(
                     Problem(
@@ -174,17 +184,6 @@ def _parse_night(text: str) -> dt.date | None:
         return None
 
 
-@functools.lru_cache(maxsize=1 << 16)
-def _quiet_day(info: dt.tzinfo, day: dt.date) -> bool:
-    """True if zone ``info`` keeps one UTC offset all through ``day`` (asked at 00:00, 12:00 and the
-    next 00:00, both PEP 495 folds: no zone changes its offset twice within 12 h). Shared by every
-    diary of a study: they cover the same calendar days."""
-    start = dt.datetime.combine(day, dt.time())
-    offsets = {(start + dt.timedelta(hours=h)).replace(tzinfo=info, fold=f).utcoffset()
-               for h in (0, 12, 24) for f in (0, 1)}
-    return len(offsets) == 1
-
-
 class _ClockReader:
     """Diary clock times on a night in one zone, as ``clock_on_night`` places them, with their DST note.
 
@@ -202,23 +201,26 @@ class _ClockReader:
 
     def __init__(self, tz: str):
         self.tz = tz
-        info = localize(dt.datetime(2000, 1, 1), tz).tzinfo  # the tzinfo pandas gives ``tz``
-        self.info = info if isinstance(info, ZoneInfo) or info is dt.timezone.utc else None
+        self.info = _pandas_tzinfo(tz)
 
     def __call__(self, clock: dt.time, night: dt.date) -> tuple[pd.Timestamp, str]:
+        if self.info is not None and (clock.fold or clock.tzinfo is not None):  # not from _clock_of: careful steps
+            return self._careful(clock, night if clock >= NOON else night + _ONE_DAY)
+        return self.place((clock, clock.replace(fold=1), clock < NOON), night)
+
+    def place(self, parsed: tuple[dt.time, dt.time, bool], night: dt.date) -> tuple[pd.Timestamp, str]:
+        """``__call__`` for a clock as ``_clock_of`` gives it: (time, the same with fold=1, before noon)."""
+        clock, clock1, next_day = parsed
         info = self.info
         if info is None:
             value = clock_on_night(clock, night, self.tz)
             return value, _dst_note(value, clock)
-        day = night if clock >= NOON else night + _ONE_DAY
+        day = night + _ONE_DAY if next_day else night
         wall = _combine(day, clock, info)  # fold 0, as ``clock`` has fold 0
         offset = info.utcoffset(wall)
         local = info.fromutc(wall - offset)  # what ``astimezone`` from UTC gives: same call, same argument
-        if (
-            local.time() == clock
-            and local.date() == day
-            and info.utcoffset(_combine(day, clock.replace(fold=1))) == offset
-        ):
+        # Same tzinfo: == compares the wall fields (date and time), fold aside.
+        if local == wall and info.utcoffset(_combine(day, clock1)) == offset:
             return pd.Timestamp(local), ""
         return self._careful(clock, day)
 
@@ -238,35 +240,69 @@ class _ClockReader:
         return wall.replace(tzinfo=self.info, fold=fold).astimezone(dt.timezone.utc).replace(fold=0)
 
 
+def _pandas_tzinfo(tz: str) -> dt.tzinfo | None:
+    """The tzinfo pandas gives ``tz`` if it is a zoneinfo zone or UTC, else None (then the careful path).
+
+    ``timeutil.pandas_tzinfo`` remembers it per name while ``ZoneInfo(tz)`` gives
+    the same object, so each file does not pay for a pandas conversion."""
+    info = pandas_tzinfo(tz)
+    return info if isinstance(info, ZoneInfo) or info is dt.timezone.utc else None
+
+
+_COLUMNS: dict[tuple[tuple[str, ...], str], int | None] = {}
+
+
+def _find_column(header: list[str], name: str) -> int | None:
+    """``find_column``, remembered per (header, name): a missing optional column costs a normalising scan."""
+    key = (tuple(header), name)
+    try:
+        return _COLUMNS[key]
+    except KeyError:
+        pass
+    except TypeError:  # an unhashable name: find_column says what it says
+        return find_column(header, name)
+    j = find_column(header, name)
+    if len(_COLUMNS) >= 1024:
+        _COLUMNS.clear()
+    _COLUMNS[key] = j
+    return j
+
+
 _ONE_DAY = dt.timedelta(days=1)
 _combine = dt.datetime.combine
-_CLOCKS: dict[str, dt.time | None] = {}  # clock text -> time (None: not a valid clock); text-only, no zone
+_UNSEEN = object()
+# Pure text look-ups, remembered across files (bounded): no zone, no night in them.
+_CLOCKS: dict[str, tuple[dt.time, dt.time, bool]] = {}  # valid HH:MM[:SS] text -> (time, time fold=1, before noon)
+_NUMBERS: dict[str, float | None] = {}  # number text -> _parse_number's result
 
 
-def _clock_of(text: str) -> dt.time | None | bool:
-    """The ``dt.time`` of an HH:MM[:SS] text; None if it looks like one but is out of range; False if not a clock."""
-    clock = _CLOCKS.get(text, False)
-    if clock is not False:
-        return clock
+def _clock_of(text: str) -> tuple[dt.time, dt.time, bool] | None | bool:
+    """An HH:MM[:SS] text as (time, same time with fold=1, before noon); None if out of range; False if not a clock."""
+    parsed = _CLOCKS.get(text)
+    if parsed is not None:
+        return parsed
     m = _CLOCK_RE.match(text)
     if not m:
         return False
     hour, minute, second = int(m.group(1)), int(m.group(2)), int(m.group(3) or 0)
-    clock = None if hour > 23 or minute > 59 or second > 59 else dt.time(hour, minute, second)
+    if hour > 23 or minute > 59 or second > 59:
+        return None
+    clock = dt.time(hour, minute, second)
     if len(_CLOCKS) >= 4096:
         _CLOCKS.clear()
-    _CLOCKS[text] = clock
-    return clock
+    _CLOCKS[text] = parsed = (clock, dt.time(hour, minute, second, fold=1), clock < NOON)
+    return parsed
 
 
 def _parse_time(
     text: str, night: dt.date, tz: str, clock_reader: _ClockReader | None = None
 ) -> tuple[pd.Timestamp | None, str]:
     """A diary clock time (noon rule) or ISO timestamp as a tz-aware local Timestamp, with a note if odd."""
-    clock = _clock_of(text)
-    if clock is None:
+    parsed = _clock_of(text)
+    if parsed is None:
         return None, ""
-    if clock is not False:
+    if parsed is not False:
+        clock = parsed[0]
         if clock_reader is not None:
             return clock_reader(clock, night)
         value = clock_on_night(clock, night, tz)

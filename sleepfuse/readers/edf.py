@@ -24,7 +24,7 @@ import pandas as pd
 from ..errors import ConfigError, ReadError
 from ..records import Hypnogram, Problem
 from ..stages import STAGE_DTYPE, Stage
-from ..timeutil import localize, zone
+from ..timeutil import localize, pandas_tzinfo, zone
 from . import _edfplus as edfplus
 from .stage_labels import (
     DEFAULT_SIGNAL_CODES,
@@ -241,17 +241,11 @@ def _hypnogram(path, header, tz, epoch_s, label_table, code_table, signal_label,
 _UTC = dt.timezone.utc
 
 
-@functools.lru_cache(maxsize=64)
-def _pandas_zone(tz: str):
-    """The tzinfo that ``localize`` gives its results in ``tz`` (pandas picks it from the name)."""
-    return localize(dt.datetime(2000, 1, 1), tz).tzinfo
-
-
 def _local_start(naive: dt.datetime, tz: str) -> pd.Timestamp:
     """``localize(naive, tz)`` for a header start (naive, whole seconds), built in one step when
     the wall time exists once in ``tz`` (no spring-forward gap): the same instant, unit, zone and
     fold (checked in tests/test_readers_edf_speed_equivalence.py)."""
-    tzinfo = _pandas_zone(tz)
+    tzinfo = pandas_tzinfo(tz)
     if not isinstance(tzinfo, ZoneInfo) or naive.tzinfo is not None or naive.microsecond or naive.fold:
         return localize(naive, tz)
     local = naive.replace(tzinfo=tzinfo).astimezone(_UTC).astimezone(tzinfo)
