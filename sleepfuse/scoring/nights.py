@@ -24,7 +24,7 @@ from .actigraphy import epochs_to_minutes, score_sleep_wake
 from .diary import DIARY_PARAMETERS, DiaryRowRejected, diary_parameters
 from .nonwear import choi_nonwear
 from .opportunity import Window, cut_window, detector_window, diary_window, marker_window, psg_window
-from .parameters import COMMON_PARAMETERS, STAGE_PARAMETERS, sleep_parameters
+from .parameters import COMMON_PARAMETERS, STAGE_PARAMETERS, sleep_parameters, sleep_parameters_many
 from .rhythm import RHYTHM_PARAMETERS, rest_activity_rhythm
 
 KEY_COLUMNS = ["participant", "night", "source"]
@@ -189,30 +189,66 @@ def score_actigraphy_night(
     file: str | None = None,
 ) -> None:
     """Score one night of one actigraphy record; ``file`` is the record's study-relative path if known."""
-    row = _row(participant, night, "actigraphy")
-    note = _Notes(qc, row, _rel(scoring.path, config) if file is None else file)
+    window = actigraphy_window(config, night, scoring, diary)
+    score_actigraphy_windows(config, participant, scoring, [(night, window)], qc, out, file)
+
+
+def actigraphy_window(config: StudyConfig, night: dt.date, scoring: ActigraphyScoring,
+                      diary: DiaryEntry | None) -> Window | None:
+    """The night's sleep opportunity: diary times, else event markers, else the automatic rest interval."""
     tz = config.timezone
     window = diary_window(diary)
     if window is None and scoring.marker is not None:
         window = marker_window(scoring.minute_times(), scoring.marker, night, tz)
     if window is None:
         window = detector_window(scoring.start, scoring.sleep & scoring.valid, scoring.valid, night, tz)
-    if window is None:
-        note("info", "no sleep opportunity: no diary times, no event markers, and no rest interval found", exclude=True)
+    return window
+
+
+COVERED_TWICE = object()  # a night of a record that an earlier record already covers
+
+
+def score_actigraphy_windows(
+    config: StudyConfig,
+    participant: str,
+    scoring: ActigraphyScoring,
+    nights: list[tuple[dt.date, Window | None | object]],
+    qc: QCLog,
+    out: ScoredParticipant,
+    file: str | None = None,
+) -> None:
+    """Score the nights of one actigraphy record, each on its window (None: none found;
+    COVERED_TWICE: skipped with a warning), the parameters of all in one pass."""
+    file = _rel(scoring.path, config) if file is None else file
+    cuts = {k: cut_window(scoring.start, 60.0, scoring.codes, w) for k, (_, w) in enumerate(nights)
+            if w is not None and w is not COVERED_TWICE}
+    params = iter(sleep_parameters_many([codes for codes, _ in cuts.values()], 60.0, staged=False,
+                                        lps_run_min=config.scoring.lps_run_min,
+                                        min_wake_bout_min=config.scoring.min_wake_bout_min))
+    keys = SOURCE_PARAMETERS["actigraphy"]
+    for k, (night, window) in enumerate(nights):
+        if window is COVERED_TWICE:
+            qc.warning(f"night {night} is covered by two actigraphy files; the first is used",
+                       file=file, participant=participant, night=night)
+            continue
+        row = _row(participant, night, "actigraphy")
+        note = _Notes(qc, row, file)
+        if window is None:
+            note("info", "no sleep opportunity: no diary times, no event markers, and no rest interval found",
+                 exclude=True)
+            out.rows.append(row)
+            continue
+        note("info", f"sleep opportunity from {window.rule}")
+        _set_window(row, window)
+        out.windows[(row["night"], "actigraphy")] = window
+        _, outside = cuts[k]
+        if outside > 0:
+            note("warning", f"{outside:.0f} min of the sleep opportunity lie outside the recording (counted unscored)")
+        p = next(params)
+        for key in keys:
+            row[key] = p[key]
+        _check_invalid(row, p, note, config)
         out.rows.append(row)
-        return
-    note("info", f"sleep opportunity from {window.rule}")
-    _set_window(row, window)
-    out.windows[(row["night"], "actigraphy")] = window
-    codes, outside = cut_window(scoring.start, 60.0, scoring.codes, window)
-    if outside > 0:
-        note("warning", f"{outside:.0f} min of the sleep opportunity lie outside the recording (counted unscored)")
-    params = sleep_parameters(codes, 60.0, staged=False, lps_run_min=config.scoring.lps_run_min,
-                              min_wake_bout_min=config.scoring.min_wake_bout_min)
-    for k in SOURCE_PARAMETERS["actigraphy"]:
-        row[k] = params[k]
-    _check_invalid(row, params, note, config)
-    out.rows.append(row)
 
 
 def score_diary_entry(config: StudyConfig, participant: str, entry: DiaryEntry, qc: QCLog, out: ScoredParticipant,
@@ -254,15 +290,14 @@ def score_participant(config: StudyConfig, rec: ParticipantRecords, qc: QCLog) -
     for a in sorted(rec.actigraphy, key=lambda a: a.start):
         scoring = score_actigraphy_record(config, a, qc, rec.participant)
         out.actigraphy.append(scoring)
-        rel = _rel(a.path, config)  # once per record, not once per night
+        plan: list[tuple[dt.date, Window | None | object]] = []
         for night in actigraphy_nights(a):
             if night in done:
-                qc.warning(f"night {night} is covered by two actigraphy files; the first is used",
-                           file=_rel(a.path, config), participant=rec.participant, night=night)
+                plan.append((night, COVERED_TWICE))
                 continue
             done.add(night)
-            score_actigraphy_night(config, rec.participant, night, scoring, usable_diary.get(night), qc, out,
-                                   file=rel)
+            plan.append((night, actigraphy_window(config, night, scoring, usable_diary.get(night))))
+        score_actigraphy_windows(config, rec.participant, scoring, plan, qc, out, _rel(a.path, config))
         if best is None or a.n_epochs > best.n_epochs:
             best, best_scoring = a, scoring
     if best is not None:

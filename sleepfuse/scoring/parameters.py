@@ -188,3 +188,126 @@ def sleep_parameters(
     if staged:
         out["rem_latency_min"] = float(int(np.argmax(codes == _REM)) - first) * ep if count[_REM] else _NAN
     return out
+
+
+def _first_per_window(positions: np.ndarray, window_of: np.ndarray, m: int) -> tuple[np.ndarray, np.ndarray]:
+    """For sorted ``positions`` with their (sorted) window numbers: the first position in each of the
+    ``m`` windows and whether the window has one at all."""
+    lo = np.searchsorted(window_of, np.arange(m), side="left")
+    has = lo < window_of.size
+    has[has] = window_of[lo[has]] == np.flatnonzero(has)
+    first = np.zeros(m, dtype=np.int64)
+    first[has] = positions[lo[has]]
+    return first, has
+
+
+def sleep_parameters_many(
+    windows,
+    epoch_s: float,
+    *,
+    staged: bool = False,
+    lps_run_min: float = 10.0,
+    min_wake_bout_min: float = 0.0,
+) -> list[dict[str, float]]:
+    """``[sleep_parameters(codes, epoch_s, ...) for codes in windows]`` in one vectorised pass.
+
+    The same definitions and the same floating-point operations, so every
+    value is identical (tests/test_scoring_parameters_many.py checks it against
+    ``sleep_parameters`` window by window); it only saves the per-call numpy
+    overhead when a record has many nights. Unknown codes in any window raise
+    ValueError, as ``sleep_parameters`` does for that window.
+    """
+    if not epoch_s > 0:
+        raise ValueError(f"epoch_s must be a positive number of seconds, got {epoch_s!r}")
+    if not lps_run_min > 0:
+        raise ValueError(f"lps_run_min must be a positive number of minutes, got {lps_run_min!r}")
+    if not min_wake_bout_min >= 0:
+        raise ValueError(f"min_wake_bout_min must be zero or more minutes, got {min_wake_bout_min!r}")
+    arrays = [np.asarray(c) for c in windows]
+    m = len(arrays)
+    if m == 0:
+        return []
+    for c in arrays:
+        if c.ndim != 1:
+            raise ValueError(f"stage codes must be a 1-D array, got shape {c.shape}")
+    keys = COMMON_PARAMETERS + EXTRA_PARAMETERS + (STAGE_PARAMETERS if staged else ())
+    n = np.array([c.size for c in arrays], dtype=np.int64)
+    codes = _check_codes(np.concatenate(arrays) if m > 1 else arrays[0])
+    ep = float(epoch_s) / 60.0
+    # Windows side by side, each followed by one separator epoch that is neither sleep nor wake,
+    # so no run of sleep or wake crosses from one window into the next.
+    offset = np.zeros(m, dtype=np.int64)  # where each window starts in ``padded``
+    np.cumsum(n[:-1] + 1, out=offset[1:])
+    padded = np.full(int(n.sum()) + m, _CODE_MIN - 1, dtype=np.int16)
+    inside = np.ones(padded.size, dtype=bool)
+    inside[offset + n] = False
+    padded[inside] = codes
+    window_of_epoch = np.repeat(np.arange(m), n)
+
+    width = _CODE_MAX - _CODE_MIN + 1
+    tally = np.bincount(window_of_epoch * width + (codes - _CODE_MIN), minlength=m * width).reshape(m, width)
+
+    def count(code: int) -> np.ndarray:
+        return tally[:, code - _CODE_MIN]
+
+    nan = np.full(m, _NAN)
+    out: dict[str, np.ndarray] = {k: nan for k in keys}
+    tib = n * ep
+    out["tib_min"] = tib
+    empty = n == 0
+    n_sleep = sum(count(c) for c in range(_N1, _SLEEP + 1))
+    tst = n_sleep * ep
+
+    def some(values: np.ndarray, where: np.ndarray) -> np.ndarray:
+        return np.where(where, values, _NAN)
+
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out["unscored_min"] = some(count(_UNSCORED).astype(np.float64) * ep, ~empty)
+        out["offwrist_min"] = some(count(_OFFWRIST).astype(np.float64) * ep, ~empty)
+        out["tst_min"] = some(tst, ~empty)
+        out["se_pct"] = some(100.0 * tst / tib, ~empty)
+        if staged:
+            for key, stage in (("n1", _N1), ("n2", _N2), ("n3", _N3), ("rem", _REM)):
+                minutes = count(stage).astype(np.float64) * ep
+                out[f"{key}_min"] = some(minutes, ~empty)
+                out[f"{key}_pct"] = some(100.0 * minutes / tst, n_sleep > 0)
+
+    slept = n_sleep > 0
+    no_sleep = ~empty & ~slept
+    sleep = (padded >= _N1) & (padded <= _SLEEP)
+    sleep_at = np.flatnonzero(sleep)
+    sleep_window = np.searchsorted(offset, sleep_at, side="right") - 1
+    first, _ = _first_per_window(sleep_at, sleep_window, m)
+    last_pos = np.searchsorted(sleep_window, np.arange(m), side="right") - 1
+    last = np.where(slept, sleep_at[np.maximum(last_pos, 0)] if sleep_at.size else 0, 0)
+    first_rel, last_rel = first - offset, last - offset
+    out["sol_min"] = some(first_rel * ep, slept)
+    out["spt_min"] = np.where(slept, (last_rel + 1 - first_rel) * ep, np.where(no_sleep, 0.0, _NAN))
+    out["terminal_wake_min"] = some((n - 1 - last_rel) * ep, slept)
+
+    wake = padded == _WAKE
+    wake_before = np.concatenate(([0], np.cumsum(wake, dtype=np.int64)))
+    waso = (wake_before[np.where(slept, last + 1, 0)] - wake_before[np.where(slept, first, 0)]).astype(np.float64)
+    out["waso_min"] = np.where(slept, waso * ep, np.where(no_sleep, 0.0, _NAN))
+
+    starts, lengths = _true_runs(sleep)
+    persistent = lengths >= _min_epochs(lps_run_min, ep)
+    p_starts = starts[persistent]
+    p_first, p_has = _first_per_window(p_starts, np.searchsorted(offset, p_starts, side="right") - 1, m)
+    out["lps_min"] = some((p_first - offset).astype(np.float64) * ep, slept & p_has)
+
+    w_starts, w_lengths = _true_runs(wake)
+    w_window = np.searchsorted(offset, w_starts, side="right") - 1
+    bout = _min_epochs(min_wake_bout_min, ep) if min_wake_bout_min > 0 else 1
+    # a wake run inside the sleep period starts after its first sleep epoch and before its last
+    interior = slept[w_window] & (w_starts > first[w_window]) & (w_starts < last[w_window]) & (w_lengths >= bout)
+    nwak = np.bincount(w_window[interior], minlength=m).astype(np.float64)
+    out["nwak"] = np.where(slept, nwak, np.where(no_sleep, 0.0, _NAN))
+
+    if staged:
+        rem_at = np.flatnonzero(padded == _REM)
+        rem_first, rem_has = _first_per_window(rem_at, np.searchsorted(offset, rem_at, side="right") - 1, m)
+        out["rem_latency_min"] = some((rem_first - first).astype(np.float64) * ep, slept & rem_has)
+
+    columns = [out[k].tolist() for k in keys]
+    return [dict(zip(keys, values)) for values in zip(*columns)]
