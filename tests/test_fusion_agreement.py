@@ -362,14 +362,11 @@ def test_mismatched_lengths_raise_clear_error():
         agreement([1.0, 2.0, 3.0], [1.0, 2.0, 3.0], ["A"])
 
 
-def test_paired_nights_equal_a_pandas_inner_merge():
-    # Reference: pandas DataFrame.merge(how="inner") on participant and night, in the test rows' order.
-    from sleepfuse.fusion.pairs import paired_nights, shared_parameters
-
-    rng = np.random.default_rng(8)
+def _random_nights(seed: int, variant: str) -> pd.DataFrame:
+    rng = np.random.default_rng(seed)
     rows = []
-    for pid in ("P3", "P1", "P2"):
-        for night in ("2026-03-02", "2026-03-01", "2026-03-03"):
+    for pid in ("P3", "P1", "P2", "P10"):
+        for night in ("2026-03-02", "2026-03-01", "2026-03-03", "2026-03-10"):
             for source in ("psg", "actigraphy", "diary"):
                 if rng.random() < 0.8:
                     rows.append({"participant": pid, "night": night, "source": source,
@@ -378,7 +375,21 @@ def test_paired_nights_equal_a_pandas_inner_merge():
                                                                              "se_pct", "nwak", "lps_min", "spt_min",
                                                                              "terminal_wake_min")}})
     nights = pd.DataFrame(rows)
-    for test, ref in (("actigraphy", "psg"), ("diary", "actigraphy")):
+    if variant == "missing id":  # an ID pandas reads as missing: the MultiIndex path
+        nights.loc[nights.index[::7], "participant"] = None
+    elif variant == "repeated night":  # one reference night twice: pandas' merge itself
+        nights = pd.concat([nights, nights[nights["source"] != "actigraphy"].head(3)], ignore_index=True)
+    return nights
+
+
+@pytest.mark.parametrize("variant", ["plain", "missing id", "repeated night"])
+@pytest.mark.parametrize("seed", [8, 9, 10])
+def test_paired_nights_equal_a_pandas_inner_merge(variant, seed):
+    # Reference: pandas DataFrame.merge(how="inner") on participant and night, in the test rows' order.
+    from sleepfuse.fusion.pairs import paired_nights, shared_parameters
+
+    nights = _random_nights(seed, variant)
+    for test, ref in (("actigraphy", "psg"), ("diary", "actigraphy"), ("diary", "psg")):
         params = [p for p in shared_parameters(test, ref) if p in nights]
         inc = nights[nights["included"]]
         a = inc.loc[inc["source"] == test, ["participant", "night", *params]]
@@ -386,3 +397,54 @@ def test_paired_nights_equal_a_pandas_inner_merge():
         expected = a.merge(b, on=["participant", "night"], how="inner", suffixes=("_test", "_ref"))
         got = paired_nights(nights[["participant", "night", "source", "included", *params]], test, ref)
         pd.testing.assert_frame_equal(got.reset_index(drop=True), expected.reset_index(drop=True))
+
+
+@pytest.mark.parametrize("seed", [8, 9])
+def test_agreement_table_equals_agreement_of_each_merged_pair(seed):
+    # Reference: the pandas inner merge of each pair, then ``agreement`` row by row with the public
+    # ``multi_night_limits`` (the table's shortcuts must not change a value).
+    from sleepfuse.definitions import PAIRS, PARAMETERS
+    from sleepfuse.fusion.pairs import agreement_table, shared_parameters
+    from sleepfuse.scoring.nights import PARAMETER_COLUMNS
+
+    nights = _random_nights(seed, "plain")
+    for col in PARAMETER_COLUMNS:
+        if col not in nights:
+            nights[col] = np.random.default_rng(seed).normal(50, 10, len(nights))
+    table = agreement_table(nights)
+    k = 0
+    for test, ref in PAIRS:
+        inc = nights[nights["included"]]
+        params = shared_parameters(test, ref)
+        a = inc.loc[inc["source"] == test, ["participant", "night", *params]]
+        b = inc.loc[inc["source"] == ref, ["participant", "night", *params]]
+        merged = a.merge(b, on=["participant", "night"], how="inner", suffixes=("_test", "_ref"))
+        for param in params:
+            t, r = merged[f"{param}_test"].to_numpy(float), merged[f"{param}_ref"].to_numpy(float)
+            ids = merged["participant"].to_numpy(object)
+            expected = agreement(t, r, ids, log_scale=PARAMETERS[param].skewed)
+            row = table.iloc[k]
+            k += 1
+            assert (row["parameter"], row["pair"]) == (param, f"{test}-{ref}")
+            for key, value in expected.items():
+                if isinstance(value, str):
+                    assert row[key] == value
+                else:
+                    assert row[key] == value or (np.isnan(row[key]) and np.isnan(value)), key
+            keep = np.isfinite(t) & np.isfinite(r)
+            if keep.sum() >= 3:
+                mn = multi_night_limits(t[keep] - r[keep], ids[keep])
+                assert row["mn_sd"] == mn["mn_sd"] or (np.isnan(mn["mn_sd"]) and np.isnan(row["mn_sd"]))
+    assert k == len(table)
+
+
+def test_ols_p_value_is_scipy_t_survival():
+    # Source: scipy.stats.t.sf (two-sided p of the slope, as scipy.stats.linregress reports it).
+    from sleepfuse.fusion.agreement import _ols
+
+    rng = np.random.default_rng(3)
+    for n in (3, 4, 10, 200):
+        x = rng.normal(size=n)
+        y = 0.3 * x + rng.normal(size=n)
+        fit = stats.linregress(x, y)
+        assert _ols(x, y)[3] == pytest.approx(fit.pvalue, rel=1e-12, abs=1e-300)

@@ -18,31 +18,61 @@ def shared_parameters(test: str, reference: str) -> list[str]:
     return [p for p in SOURCE_PARAMETERS[test] if p in ref]
 
 
-def paired_nights(nights: pd.DataFrame, test: str, reference: str) -> pd.DataFrame:
+class _NightKeys:
+    """The night table's columns that pairing reads, converted once for all pairs."""
+
+    def __init__(self, nights: pd.DataFrame):
+        self.included = nights["included"].to_numpy(dtype=bool)
+        self.source = nights["source"].to_numpy(dtype=object)
+        self.who = nights["participant"].to_numpy(dtype=object)
+        self.night = nights["night"].to_numpy(dtype=object)
+        who_code, _ = pd.factorize(self.who)
+        night_code, _ = pd.factorize(self.night)
+        # one integer per (participant, night); None if an ID is missing (then pandas' own join)
+        ok = who_code.size == 0 or (who_code.min() >= 0 and night_code.min() >= 0)
+        width = int(night_code.max()) + 1 if night_code.size else 1
+        self.key = who_code.astype(np.int64) * width + night_code if ok else None
+
+    def rows(self, test: str, reference: str) -> tuple[np.ndarray, np.ndarray] | None:
+        """Row numbers (test rows, their reference rows) of the nights both include, in the test
+        rows' order; None when a reference night repeats (the caller then merges with pandas)."""
+        a_rows = np.flatnonzero(self.included & (self.source == test))
+        b_rows = np.flatnonzero(self.included & (self.source == reference))
+        if self.key is None:
+            b_keys = pd.MultiIndex.from_arrays([self.who[b_rows], self.night[b_rows]])
+            if not b_keys.is_unique:
+                return None
+            where = b_keys.get_indexer(pd.MultiIndex.from_arrays([self.who[a_rows], self.night[a_rows]]))
+            hit = np.flatnonzero(where >= 0)
+            return a_rows[hit], b_rows[where[hit]]
+        b_keys = self.key[b_rows]
+        order = np.argsort(b_keys, kind="stable")
+        sorted_keys = b_keys[order]
+        if sorted_keys.size > 1 and (sorted_keys[1:] == sorted_keys[:-1]).any():
+            return None
+        a_keys = self.key[a_rows]
+        at = np.minimum(np.searchsorted(sorted_keys, a_keys), max(sorted_keys.size - 1, 0))
+        hit = np.flatnonzero(sorted_keys[at] == a_keys) if sorted_keys.size else np.zeros(0, dtype=np.intp)
+        return a_rows[hit], b_rows[order[at[hit]]]
+
+
+def paired_nights(nights: pd.DataFrame, test: str, reference: str, keys: _NightKeys | None = None) -> pd.DataFrame:
     """One row per (participant, night) that both sources have and include, with both values of every shared parameter.
 
     The rows of an inner merge on participant and night, in the test rows'
     order (as ``DataFrame.merge`` gives them; tests/test_fusion_agreement.py
-    compares the two), found with an index lookup on plain arrays.
+    compares the two), found by matching one integer key per night.
     """
     params = shared_parameters(test, reference)
-    keys = ["participant", "night"]
-    included = nights["included"].to_numpy(dtype=bool)
-    source = nights["source"].to_numpy(dtype=object)
-    a_rows = np.flatnonzero(included & (source == test))
-    b_rows = np.flatnonzero(included & (source == reference))
-    who = nights["participant"].to_numpy(dtype=object)
-    night = nights["night"].to_numpy(dtype=object)
-    b_keys = pd.MultiIndex.from_arrays([who[b_rows], night[b_rows]])
-    if not b_keys.is_unique:  # never in a night table; pandas' merge handles it all the same
-        a = nights.iloc[a_rows][keys + params]
-        b = nights.iloc[b_rows][keys + params]
-        return a.merge(b, on=keys, how="inner", suffixes=("_test", "_ref"))
-    where = b_keys.get_indexer(pd.MultiIndex.from_arrays([who[a_rows], night[a_rows]]))
-    hit = np.flatnonzero(where >= 0)
-    left, right = a_rows[hit], b_rows[where[hit]]
-    data: dict[str, object] = {"participant": nights["participant"].iloc[left].to_numpy(),
-                               "night": nights["night"].iloc[left].to_numpy()}
+    keys = keys if keys is not None else _NightKeys(nights)
+    found = keys.rows(test, reference)
+    if found is None:  # never in a night table; pandas' merge handles it all the same
+        on = ["participant", "night"]
+        a = nights[keys.included & (keys.source == test)][on + params]
+        b = nights[keys.included & (keys.source == reference)][on + params]
+        return a.merge(b, on=on, how="inner", suffixes=("_test", "_ref"))
+    left, right = found
+    data: dict[str, object] = {"participant": keys.who[left], "night": keys.night[left]}
     for p in params:
         data[f"{p}_test"] = nights[p].to_numpy()[left]
     for p in params:
@@ -53,15 +83,24 @@ def paired_nights(nights: pd.DataFrame, test: str, reference: str) -> pd.DataFra
 def agreement_table(nights: pd.DataFrame, *, confidence: float = 0.95) -> pd.DataFrame:
     """agreement.csv: Bland–Altman and friends per parameter and pair (differences test − reference)."""
     rows = []
+    keys = _NightKeys(nights) if not nights.empty else None
     for test, reference in PAIRS:
-        paired = paired_nights(nights, test, reference) if not nights.empty else pd.DataFrame()
+        found = keys.rows(test, reference) if keys is not None else None
+        paired = None
+        if keys is not None and found is None:
+            paired = paired_nights(nights, test, reference, keys)
         for param in shared_parameters(test, reference):
             info = PARAMETERS[param]
-            if paired.empty:
-                t = r = ids = pd.Series(dtype=float)
+            if keys is None:
+                t = r = np.zeros(0)
+                ids = np.zeros(0, dtype=object)
+            elif paired is not None:
+                t, r = paired[f"{param}_test"].to_numpy(float), paired[f"{param}_ref"].to_numpy(float)
+                ids = paired["participant"].to_numpy(object)
             else:
-                t, r, ids = paired[f"{param}_test"], paired[f"{param}_ref"], paired["participant"]
-            stats = agreement(t.to_numpy(float), r.to_numpy(float), ids.to_numpy(object),
-                              log_scale=info.skewed, confidence=confidence)
+                left, right = found
+                column = nights[param].to_numpy(float)
+                t, r, ids = column[left], column[right], keys.who[left]
+            stats = agreement(t, r, ids, log_scale=info.skewed, confidence=confidence)
             rows.append({"parameter": param, "pair": pair_name(test, reference), "unit": info.unit, **stats})
     return pd.DataFrame(rows, columns=AGREEMENT_TABLE_COLUMNS)
