@@ -46,7 +46,7 @@ def participant_matrix(nights: pd.DataFrame, rhythm: pd.DataFrame, *, min_nights
     column over participants (the night counts are left as counts).
     """
     cols = feature_columns()
-    ids = sorted(set(participants or []) | set(nights["participant"]) | set(rhythm["participant"]))
+    ids = sorted(set(participants or []) | set(nights["participant"].unique()) | set(rhythm["participant"].unique()))
     index = pd.Index(ids, name="participant")
     data: dict[str, np.ndarray] = {}
     inc = nights[nights["included"]] if not nights.empty else nights
@@ -56,7 +56,10 @@ def participant_matrix(nights: pd.DataFrame, rhythm: pd.DataFrame, *, min_nights
         n_nights = np.zeros(len(ids), dtype=np.int64)
         mean = sd = None
         if not sub.empty:
-            values = sub[params].apply(pd.to_numeric, errors="coerce").astype(float)
+            values = sub[params]
+            if not all(values[p].dtype.kind == "f" for p in params):  # numbers as text or objects
+                values = values.apply(pd.to_numeric, errors="coerce")
+            values = values.astype(float)
             g = values.groupby(sub["participant"])
             n_nights = g.size().reindex(index, fill_value=0).to_numpy(np.int64)
             mean = g.mean().reindex(index).to_numpy(float)
@@ -90,7 +93,9 @@ def codebook(matrix: pd.DataFrame, *, min_nights: int = 1, zscore: bool = False,
              "definition": "Participant ID: the file-name part before the first '_' (or [study] participant_pattern).",
              "n_nonmissing": int(matrix["participant"].notna().sum()), "skewness": math.nan}]
     for name, source, param, stat in feature_columns():
-        col = pd.to_numeric(matrix[name], errors="coerce")
+        col = matrix[name]
+        if col.dtype.kind not in "fiu":  # numbers as text or objects
+            col = pd.to_numeric(col, errors="coerce")
         src = SOURCE_NAMES[source]
         if stat == "nights":
             unit, definition = "nights", f"Number of included {src} nights of the participant. {_WINDOW_RULES[source]}"
