@@ -16,7 +16,7 @@ import hashlib
 import json
 import sqlite3
 import time
-from dataclasses import asdict, dataclass
+from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Callable, Iterable
 
@@ -96,7 +96,8 @@ def encode_outcome(outcome: "ParticipantOutcome") -> bytes:
         "rows": outcome.rows,
         "rhythm": outcome.rhythm,
         "epoch_rows": outcome.epoch_rows,
-        "qc": [asdict(e) for e in outcome.qc],
+        "qc": [{"file": e.file, "participant": e.participant, "night": e.night, "severity": e.severity,
+                "message": e.message} for e in outcome.qc],  # asdict(e), without its deep copy
     }
     return json.dumps(data, default=_plain, allow_nan=True, separators=(",", ":")).encode("utf-8")
 

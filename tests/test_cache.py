@@ -280,3 +280,19 @@ def test_first_run_leaves_checksums_to_the_workers_and_keys_them_alike(study, tm
     second = run(study, tmp_path / "o2")
     assert sum(hashed) == len(IDS) and (second.n_recomputed, second.n_from_cache) == (0, len(IDS))
     assert [i["sha256"] for i in second.provenance["inputs"]] == [i["sha256"] for i in first.provenance["inputs"]]
+
+
+def test_encoded_qc_entries_are_their_dataclass_fields():
+    # Reference: dataclasses.asdict (the encoder writes the fields by name; a new field must be added there).
+    import json
+    from dataclasses import asdict
+
+    from sleepfuse.batch import ParticipantOutcome
+    from sleepfuse.cache import decode_outcome, encode_outcome
+    from sleepfuse.qc import QCEntry
+
+    entries = [QCEntry("a.csv", "P1", "2026-03-01", "warning", "odd, but kept"), QCEntry("", "P1", "", "info", "é")]
+    outcome = ParticipantOutcome("P1", [{"participant": "P1", "tst_min": float("nan")}], {}, [], entries)
+    blob = encode_outcome(outcome)
+    assert json.loads(blob)["qc"] == [asdict(e) for e in entries]
+    assert decode_outcome(blob).qc == entries

@@ -153,3 +153,18 @@ def test_no_sleep_night_is_not_an_error(tmp_path):
     write_edf_plus(root / "psg" / "Z1_n.edf", start=dt.datetime(2026, 5, 1, 23, 0), annotations=anns, duration_s=600.0)
     row = run_study(root).nights.iloc[0]
     assert row.tst_min == 0 and np.isnan(row.sol_min) and row.tib_min == 10
+
+
+def test_window_times_written_as_pandas_isoformat():
+    # Reference: pandas Timestamp.isoformat (the night table's window_start / window_end text).
+    from sleepfuse.scoring.nights import _iso
+
+    rng = np.random.default_rng(11)
+    for zone in ("Europe/Berlin", "America/Chicago", "Asia/Kolkata", "Australia/Lord_Howe", "UTC", None):
+        for unit in ("s", "ms", "us", "ns"):
+            for value in rng.integers(0, 4_000_000_000 * 10**9, size=40):
+                t = pd.Timestamp(int(value), unit="ns", tz="UTC")
+                t = (t.tz_convert(zone) if zone else t.tz_localize(None)).as_unit(unit)
+                assert _iso(t) == t.isoformat()
+            t = pd.Timestamp("1900-01-01 00:00:00.000000001").as_unit("ns")  # nanoseconds: pandas' own digits
+            assert _iso(t) == t.isoformat()

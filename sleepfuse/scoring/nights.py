@@ -8,6 +8,7 @@ series that epoch-by-epoch agreement and the night view need.
 from __future__ import annotations
 
 import datetime as dt
+import functools
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -53,8 +54,9 @@ class ActigraphyScoring:
     marker: np.ndarray | None  # bool per minute
     nonwear_rule: str
 
-    @property
+    @functools.cached_property
     def valid(self) -> np.ndarray:
+        """Minutes scored sleep or wake (not off-wrist, not unscored); computed once (codes never change)."""
         return (self.codes == Stage.SLEEP) | (self.codes == Stage.WAKE)
 
     def minute_times(self) -> pd.DatetimeIndex:
@@ -75,16 +77,28 @@ class ScoredParticipant:
     digests: dict[Path, str] = field(default_factory=dict)  # SHA-256 of the bytes the readers read, by file
 
 
+_BLANK_ROW = {c: math.nan for c in PARAMETER_COLUMNS}
+
+
 def _row(participant: str, night: dt.date, source: str) -> dict:
-    row = {c: math.nan for c in PARAMETER_COLUMNS}
+    row = _BLANK_ROW.copy()
     row.update(participant=participant, night=night.isoformat(), source=source,
                window_start="", window_end="", window_rule="", included=True, qc="")
     return row
 
 
+def _iso(t: pd.Timestamp) -> str:
+    """``t.isoformat()``: datetime's own method when there are no nanoseconds (the same text, a
+    little faster; pandas adds digits only for nanoseconds)."""
+    return t.isoformat() if t.nanosecond else _datetime_iso(t)
+
+
+_datetime_iso = dt.datetime.isoformat
+
+
 def _set_window(row: dict, w: Window) -> None:
-    row["window_start"] = w.start.isoformat()
-    row["window_end"] = w.end.isoformat()
+    row["window_start"] = _iso(w.start)
+    row["window_end"] = _iso(w.end)
     row["window_rule"] = w.rule
 
 
