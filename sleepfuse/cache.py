@@ -15,6 +15,7 @@ from __future__ import annotations
 import hashlib
 import json
 import sqlite3
+import sys
 import time
 from dataclasses import dataclass
 from pathlib import Path
@@ -38,11 +39,20 @@ _COMMIT_EVERY_S = 2.0
 
 
 def library_versions(names: tuple[str, ...] = _LIBRARIES) -> dict[str, str]:
-    """Installed versions of ``names``; by default the libraries whose arithmetic shapes the scores (part of the key)."""
-    import importlib.metadata as md
+    """Installed versions of ``names``; by default the libraries whose arithmetic shapes the scores (part of the key).
 
+    A library already imported gives the version of the code actually running
+    (its ``__version__``, the same text as its installed metadata); others are
+    looked up in the installed metadata (a scan of the search path: ~30 ms the
+    first time, so only when needed)."""
     out = {}
     for name in names:
+        version = getattr(sys.modules.get(name), "__version__", None)
+        if isinstance(version, str) and version:
+            out[name] = version
+            continue
+        import importlib.metadata as md
+
         try:
             out[name] = md.version(name)
         except md.PackageNotFoundError:

@@ -296,3 +296,19 @@ def test_encoded_qc_entries_are_their_dataclass_fields():
     blob = encode_outcome(outcome)
     assert json.loads(blob)["qc"] == [asdict(e) for e in entries]
     assert decode_outcome(blob).qc == entries
+
+
+def test_library_versions_equal_the_installed_metadata():
+    # Reference: importlib.metadata.version (what pip installed); imported modules answer from __version__.
+    import importlib.metadata as md
+
+    import numpy  # noqa: F401
+    import pandas  # noqa: F401
+
+    from sleepfuse.cache import library_versions
+
+    names = ("numpy", "pandas", "scipy", "pyedflib", "pyarrow", "no-such-library-here")
+    got = library_versions(names)
+    for name in names[:-1]:
+        assert got[name] == md.version(name)
+    assert got["no-such-library-here"] == "not installed"
