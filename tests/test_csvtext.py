@@ -63,6 +63,10 @@ def test_generated_frames(data, n):
     pd.DataFrame([[1, 2]], columns=["a", "a"]),  # repeated names
     pd.DataFrame({1: [1.5], "x": [2.5]}),  # a non-text name
     pd.DataFrame({"o": [1.5, 2, True, None, "x"]}),  # mixed objects
+    pd.DataFrame({"o": pd.Series([np.float64(1.5), np.float32(2.5), np.int64(3), np.True_, 0.1 + 0.2], dtype=object),
+                  "t": ["", " lead", "trail ", 'q"', "a,b"]}),  # numpy scalars as objects, fields to quote
+    pd.DataFrame({"only": ["", "x", "a,b"]}),  # one column: a lone empty field is quoted
+    pd.DataFrame({"a": ["", ""], "b": ["", ""]}),  # rows of empty fields
 ])
 def test_other_frames_fall_back_or_agree(df):
     assert frame_csv(df) == pandas_csv(df)
