@@ -16,7 +16,7 @@ import pandas as pd
 from ..config import StudyConfig
 from ..qc import QCLog
 from ..scoring.nights import ScoredParticipant
-from .epochs import best_clock_offset, common_grid, epoch_agreement
+from .epochs import best_clock_offset, common_grid, epoch_agreement, night_agreement
 
 EPOCH_COLUMNS = [
     "participant", "night", "n_epochs", "sensitivity", "specificity", "accuracy", "kappa",
@@ -36,7 +36,67 @@ def _counts(psg: np.ndarray, act: np.ndarray, ok: np.ndarray) -> dict[str, int]:
 
 
 def epoch_rows(config: StudyConfig, scored: ScoredParticipant, qc: QCLog) -> list[dict]:
-    """One row per PSG night that actigraphy also covers."""
+    """One row per PSG night that actigraphy also covers.
+
+    Each night pairs with the first actigraphy record that overlaps its PSG
+    window and has an epoch valid at offset 0, as in ``_epoch_rows_careful``
+    (the public functions one after the other), which this equals value for
+    value. Per record, its end and its validity mask are computed once (they
+    do not depend on the night); per night, ``night_agreement`` gives the
+    agreement, its counts and the offset search from one pass. A search range
+    outside [0, 1e6] min (config validation allows (0, 180]) takes the careful
+    path, so its errors stay those of ``best_clock_offset``.
+    """
+    max_offset = config.agreement.clock_offset_max_min
+    if not (isinstance(max_offset, (int, float, np.integer, np.floating)) and 0 <= max_offset <= 1e6):
+        return _epoch_rows_careful(config, scored, qc)
+    rows = []
+    ends: dict[int, pd.Timestamp] = {}
+    valid: dict[int, np.ndarray] = {}
+    for night, h in sorted(scored.hypnograms.items()):
+        window = scored.windows.get((night, "psg"))
+        if window is None:
+            continue
+        for i, act in enumerate(scored.actigraphy):
+            if i not in ends:
+                ends[i] = act.start + pd.Timedelta(minutes=act.codes.size)
+            if act.start >= window.end or ends[i] <= window.start:
+                continue
+            if i not in valid:
+                valid[i] = act.valid
+            found = night_agreement(h.start, h.epoch_s, h.stages, act.start, 60.0, act.sleep, valid[i],
+                                    window=(window.start, window.end), max_offset_min=max_offset)
+            if found is None:
+                continue
+            stats, (tp, fn, tn, fp), off = found
+            counts = {"psg_sleep_act_sleep": tp, "psg_sleep_act_wake": fn,
+                      "psg_wake_act_wake": tn, "psg_wake_act_sleep": fp}
+            rows.append(_row(config, scored, night, stats, counts, off, qc))
+            break
+    return rows
+
+
+def _row(config: StudyConfig, scored: ScoredParticipant, night: str, stats: dict, counts: dict, off: dict,
+         qc: QCLog) -> dict:
+    """The night's row from its agreement, counts and offset search; the QC warning when flagged."""
+    offset_min = off["offset_s"] / 60.0
+    gain = off["kappa_at_best"] - off["kappa_at_zero"]
+    flag = bool(np.isfinite(offset_min) and abs(offset_min) >= config.agreement.clock_offset_flag_min
+                and np.isfinite(gain) and gain >= config.agreement.clock_offset_flag_kappa_gain)
+    if flag:
+        qc.warning(
+            f"epoch agreement: actigraphy fits PSG best with its clock shifted by {offset_min:+.0f} min "
+            f"(kappa {off['kappa_at_zero']:.2f} -> {off['kappa_at_best']:.2f}); check the device clocks",
+            participant=scored.participant, night=night,
+        )
+    return {
+        "participant": scored.participant, "night": night, **stats, **counts,
+        "clock_offset_min": offset_min, "kappa_at_offset": off["kappa_at_best"], "offset_flag": flag,
+    }
+
+
+def _epoch_rows_careful(config: StudyConfig, scored: ScoredParticipant, qc: QCLog) -> list[dict]:
+    """``epoch_rows`` by the public functions, each on its own: the reference the fast path equals."""
     rows = []
     for night, h in sorted(scored.hypnograms.items()):
         window = scored.windows.get((night, "psg"))
@@ -53,20 +113,7 @@ def epoch_rows(config: StudyConfig, scored: ScoredParticipant, qc: QCLog) -> lis
             stats = epoch_agreement(psg, a, ok)
             off = best_clock_offset(*args, window=(window.start, window.end),
                                     max_offset_min=config.agreement.clock_offset_max_min)
-            offset_min = off["offset_s"] / 60.0
-            gain = off["kappa_at_best"] - off["kappa_at_zero"]
-            flag = bool(np.isfinite(offset_min) and abs(offset_min) >= config.agreement.clock_offset_flag_min
-                        and np.isfinite(gain) and gain >= config.agreement.clock_offset_flag_kappa_gain)
-            if flag:
-                qc.warning(
-                    f"epoch agreement: actigraphy fits PSG best with its clock shifted by {offset_min:+.0f} min "
-                    f"(kappa {off['kappa_at_zero']:.2f} -> {off['kappa_at_best']:.2f}); check the device clocks",
-                    participant=scored.participant, night=night,
-                )
-            rows.append({
-                "participant": scored.participant, "night": night, **stats, **_counts(psg, a, ok),
-                "clock_offset_min": offset_min, "kappa_at_offset": off["kappa_at_best"], "offset_flag": flag,
-            })
+            rows.append(_row(config, scored, night, stats, _counts(psg, a, ok), off, qc))
             break
     return rows
 

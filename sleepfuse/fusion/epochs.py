@@ -11,9 +11,12 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from sleepfuse.stages import Stage, is_sleep
+from sleepfuse.stages import Stage
 
 _NAN = float("nan")
+# Stage codes as plain ints: numpy compares an int8 array with a Python int several times faster than
+# with an IntEnum member, and the comparison is the same (an IntEnum member is that int).
+_WAKE, _N1, _SLEEP = int(Stage.WAKE), int(Stage.N1), int(Stage.SLEEP)
 
 
 def _kappa_parts(psg: np.ndarray, act: np.ndarray, valid: np.ndarray, axis: int = -1):
@@ -55,6 +58,11 @@ def epoch_agreement(
             f"{psg.size}, {act.size} and {ok.size}"
         )
     tp, fn, tn, fp = (int(v) for v in _kappa_parts(psg, act, ok))
+    return _stats(tp, fn, tn, fp, float(_kappa(tp, fn, tn, fp)))
+
+
+def _stats(tp: int, fn: int, tn: int, fp: int, kappa: float) -> dict:
+    """The dict of ``epoch_agreement`` from the 2 × 2 counts (Python ints) and kappa."""
     n = tp + fn + tn + fp
 
     def ratio(a: int, b: int) -> float:
@@ -65,7 +73,7 @@ def epoch_agreement(
         "sensitivity": ratio(tp, tp + fn),
         "specificity": ratio(tn, tn + fp),
         "accuracy": ratio(tp + tn, n),
-        "kappa": float(_kappa(tp, fn, tn, fp)),
+        "kappa": kappa,
     }
 
 
@@ -92,8 +100,8 @@ def _grid_parts(psg_start, psg_epoch_s, psg_codes, act_start, act_epoch_s, act_s
             f"(got {psg_start} and {act_start})"
         ) from exc
     mid = lag + (np.arange(codes.size) + 0.5) * float(psg_epoch_s)
-    psg_sleep = is_sleep(codes)
-    scored = psg_sleep | (codes == Stage.WAKE)
+    psg_sleep = (codes >= _N1) & (codes <= _SLEEP)  # sleepfuse.stages.is_sleep (tested equal)
+    scored = psg_sleep | (codes == _WAKE)
     if window is not None:
         lo, hi = (pd.Timestamp(t) for t in window)
         try:
@@ -191,6 +199,46 @@ def _shift_counts(mid, psg_sleep, act_epoch_s, act, act_ok, k_max):
     return tp, fn, n_ok - n_psg - fp, fp
 
 
+_PACK_BITS = 24  # low digit of the packed counts; every count must stay below 2**_PACK_BITS
+
+
+def _shift_counts_packed(mid, psg_sleep, act_epoch_s, act, act_ok, k_max):
+    """``_shift_counts`` with two float64 correlations instead of four int64 ones (same counts).
+
+    The two PSG tallies travel in one series, n_psg_at + 2**24 · sleep_at, so
+    one correlation with the valid-minute series gives n_ok + 2**24 · n_psg and
+    one with the valid-sleep-minute series gives n_act + 2**24 · tp. Exact:
+    every product and partial sum is a non-negative integer at most
+    mid.size · (1 + 2**24) < 2**48, which float64 holds exactly whatever the
+    summation order (the float dot may be BLAS, with or without FMA), and
+    0 ≤ n_ok, n_psg, n_act, tp ≤ mid.size < 2**24, so the low and high 24 bits
+    of the integer part them again. Longer nights take ``_shift_counts``.
+    """
+    bits = _PACK_BITS
+    if mid.size == 0 or act.size == 0 or mid.size >= (1 << bits):
+        return _shift_counts(mid, psg_sleep, act_epoch_s, act, act_ok, k_max)
+    j0 = np.floor(mid / act_epoch_s + 1e-9).astype(np.int64)
+    lo, hi = int(j0.min()), int(j0.max())
+    n_psg_at = np.bincount(j0 - lo, minlength=hi - lo + 1)
+    sleep_at = np.bincount(j0 - lo, weights=psg_sleep, minlength=hi - lo + 1)
+    packed = n_psg_at + float(1 << bits) * sleep_at
+    # act_ok[lo − k_max .. hi + k_max] and act & act_ok there, 0 outside the recording (as window() above)
+    ok_w = np.zeros(hi - lo + 1 + 2 * k_max)
+    a_ok_w = np.zeros(ok_w.size)
+    a, b = max(lo - k_max, 0), min(hi + k_max + 1, act.size)
+    if a < b:
+        ok = act_ok[a:b]
+        ok_w[a - (lo - k_max): b - (lo - k_max)] = ok
+        a_ok_w[a - (lo - k_max): b - (lo - k_max)] = act[a:b] & ok
+    low = (1 << bits) - 1
+    r_ok = np.correlate(ok_w, packed, "valid")[::-1].astype(np.int64)
+    r_act = np.correlate(a_ok_w, packed, "valid")[::-1].astype(np.int64)
+    n_ok, n_psg = r_ok & low, r_ok >> bits
+    n_act, tp = r_act & low, r_act >> bits
+    fn, fp = n_psg - tp, n_act - tp
+    return tp, fn, n_ok - n_psg - fp, fp
+
+
 def best_clock_offset(
     psg_start: pd.Timestamp,
     psg_epoch_s: float,
@@ -224,10 +272,14 @@ def best_clock_offset(
     # Only scored PSG epochs can count at any offset, so look up just those (same counts, less work).
     mid, psg_sleep = mid[scored], psg_sleep[scored]
     if step == float(act_epoch_s):
-        tp, fn, tn, fp = _shift_counts(mid, psg_sleep, float(act_epoch_s), act, act_ok, k_max)
+        tp, fn, tn, fp = _shift_counts_packed(mid, psg_sleep, float(act_epoch_s), act, act_ok, k_max)
     else:
         tp, fn, tn, fp = _dense_counts(mid, psg_sleep, offsets, float(act_epoch_s), act, act_ok)
-    kappas = _kappa(tp, fn, tn, fp)
+    return _pick_offset(_kappa(tp, fn, tn, fp), offsets, k_max)
+
+
+def _pick_offset(kappas: np.ndarray, offsets: np.ndarray, k_max: int) -> dict:
+    """The result of ``best_clock_offset`` from kappa at every offset (offsets[k_max] is 0)."""
     zero = int(k_max)
     out = {"offset_s": _NAN, "kappa_at_zero": float(kappas[zero]), "kappa_at_best": _NAN,
            "n_offsets": int(offsets.size)}
@@ -239,3 +291,35 @@ def best_clock_offset(
     out["offset_s"] = float(offsets[pick])
     out["kappa_at_best"] = float(kappas[pick])
     return out
+
+
+def night_agreement(
+    psg_start, psg_epoch_s, psg_codes, act_start, act_epoch_s, act_sleep, act_valid, *,
+    window, max_offset_min: float,
+) -> tuple[dict, tuple[int, int, int, int], dict] | None:
+    """``epoch_agreement`` of ``common_grid`` at offset 0, its 2 × 2 counts, and ``best_clock_offset``.
+
+    The same three results as calling the public functions one after the
+    other (default step: one actigraphy epoch), from one ``_grid_parts`` and
+    one offset search: the zero offset is one of the searched offsets, and
+    the search looks each scored PSG midpoint up in the very actigraphy epoch
+    that ``common_grid`` takes at offset 0 (floor(mid / act_epoch_s + 1e-9);
+    mid − 0.0 is mid in floating point), so its counts
+    at zero are ``epoch_agreement``'s, and kappa there is the same float
+    arithmetic on the same counts. Returns None when no epoch is valid at
+    offset 0 (where ``epoch_rows`` skips the night without searching).
+    Assumes 0 ≤ max_offset_min < inf (the caller checks; other values belong
+    to the public functions' own errors).
+    """
+    step = float(act_epoch_s)
+    mid, psg_sleep, scored, act, act_ok = _grid_parts(
+        psg_start, psg_epoch_s, psg_codes, act_start, act_epoch_s, act_sleep, act_valid, window
+    )
+    k_max = int(np.floor(max_offset_min * 60.0 / step + 1e-9))
+    offsets = np.arange(-k_max, k_max + 1) * step
+    counts = _shift_counts_packed(mid[scored], psg_sleep[scored], step, act, act_ok, k_max)
+    zero = tuple(int(v[k_max]) for v in counts)
+    if sum(zero) == 0:
+        return None
+    kappas = _kappa(*counts)
+    return _stats(*zero, float(kappas[k_max])), zero, _pick_offset(kappas, offsets, k_max)
