@@ -33,7 +33,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 CACHE_DIR = ".sleepfuse-cache"
 CACHE_FILE = "outcomes.sqlite"
-CACHE_FORMAT = 2  # bump when ParticipantOutcome or its JSON form changes
+CACHE_FORMAT = 3  # bump when ParticipantOutcome or its JSON form changes
 _LIBRARIES = ("numpy", "pandas", "scipy", "pyedflib")
 _COMMIT_EVERY_S = 2.0
 
@@ -99,15 +99,28 @@ def _plain(value):
     raise TypeError(f"cannot cache a value of type {type(value).__name__}")
 
 
+_QC_FIELDS = ("file", "participant", "night", "severity", "message")
+
+
 def encode_outcome(outcome: "ParticipantOutcome") -> bytes:
-    """The outcome's scores as JSON bytes (inputs are re-read each run and not stored)."""
+    """The outcome's scores as JSON bytes (inputs are re-read each run and not stored).
+
+    Night rows that share one key order (all of them, from ``score_participant``)
+    are stored as a column list and value lists, so the keys are written once;
+    QC entries as lists in ``_QC_FIELDS`` order. ``decode_outcome`` rebuilds the
+    same dicts and entries (tests/test_cache.py)."""
+    rows = outcome.rows
+    columns = list(rows[0]) if rows else []
+    if all(list(r) == columns for r in rows):
+        table = {"columns": columns, "values": [list(r.values()) for r in rows]}
+    else:
+        table = {"rows": rows}
     data = {
         "participant": outcome.participant,
-        "rows": outcome.rows,
+        **table,
         "rhythm": outcome.rhythm,
         "epoch_rows": outcome.epoch_rows,
-        "qc": [{"file": e.file, "participant": e.participant, "night": e.night, "severity": e.severity,
-                "message": e.message} for e in outcome.qc],  # asdict(e), without its deep copy
+        "qc": [[e.file, e.participant, e.night, e.severity, e.message] for e in outcome.qc],
     }
     return json.dumps(data, default=_plain, allow_nan=True, separators=(",", ":")).encode("utf-8")
 
@@ -116,9 +129,14 @@ def decode_outcome(blob: bytes) -> "ParticipantOutcome":
     from .batch import ParticipantOutcome
 
     d = json.loads(blob.decode("utf-8"))
+    if "rows" in d:
+        rows = d["rows"]
+    else:
+        columns = d["columns"]
+        rows = [dict(zip(columns, values)) for values in d["values"]]
     return ParticipantOutcome(
-        participant=d["participant"], rows=d["rows"], rhythm=d["rhythm"], epoch_rows=d["epoch_rows"],
-        qc=[QCEntry(**e) for e in d["qc"]],
+        participant=d["participant"], rows=rows, rhythm=d["rhythm"], epoch_rows=d["epoch_rows"],
+        qc=[QCEntry(*e) for e in d["qc"]],
     )
 
 

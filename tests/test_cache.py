@@ -294,8 +294,30 @@ def test_encoded_qc_entries_are_their_dataclass_fields():
     entries = [QCEntry("a.csv", "P1", "2026-03-01", "warning", "odd, but kept"), QCEntry("", "P1", "", "info", "é")]
     outcome = ParticipantOutcome("P1", [{"participant": "P1", "tst_min": float("nan")}], {}, [], entries)
     blob = encode_outcome(outcome)
-    assert json.loads(blob)["qc"] == [asdict(e) for e in entries]
+    stored = json.loads(blob)["qc"]
+    assert [dict(zip(("file", "participant", "night", "severity", "message"), e)) for e in stored] == \
+        [asdict(e) for e in entries]
+    assert [f.name for f in __import__("dataclasses").fields(QCEntry)] == ["file", "participant", "night", "severity",
+                                                                          "message"]
     assert decode_outcome(blob).qc == entries
+
+
+def test_outcome_round_trip_keeps_rows_and_their_key_order():
+    import math
+
+    from sleepfuse.batch import ParticipantOutcome
+    from sleepfuse.cache import decode_outcome, encode_outcome
+
+    same_keys = [{"participant": "P1", "night": "2026-03-01", "tst_min": 400.5, "included": True},
+                 {"participant": "P1", "night": "2026-03-02", "tst_min": float("nan"), "included": False}]
+    mixed = [same_keys[0], {"night": "2026-03-03", "participant": "P1", "extra": 1}]
+    for rows in (same_keys, mixed, []):
+        back = decode_outcome(encode_outcome(ParticipantOutcome("P1", rows, {"IS": 0.5}, [{"n": 1}], [])))
+        assert [list(r) for r in back.rows] == [list(r) for r in rows]
+        for got, want in zip(back.rows, rows):
+            for k in want:
+                assert got[k] == want[k] or (math.isnan(got[k]) and math.isnan(want[k]))
+        assert back.rhythm == {"IS": 0.5} and back.epoch_rows == [{"n": 1}]
 
 
 def test_library_versions_equal_the_installed_metadata():
