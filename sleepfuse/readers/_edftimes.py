@@ -1,0 +1,106 @@
+"""Times of an EDF(+) hypnogram: the header start in the study zone, record onsets, lights markers.
+
+All times are seconds from the header start time (a naive wall-clock time,
+whole seconds) turned into tz-aware pandas Timestamps. Shortcuts, each giving
+the same instant, unit, zone and fold as the general computation (checked in
+tests/test_readers_edf_speed_equivalence.py):
+
+- ``_local_start`` builds the header start in one step when its wall time
+  exists once in the zone, else defers to ``timeutil.localize``;
+- ``_after`` returns the start itself for an offset of 0 s;
+- ``_record_steps`` caches the contiguous record offsets a study's files share.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import functools
+import math
+from zoneinfo import ZoneInfo
+
+import numpy as np
+import pandas as pd
+
+from ..records import Problem
+from ..timeutil import localize, pandas_tzinfo
+
+MAX_RECORDING_DAYS = 14  # longer stage series are taken for a damaged file
+
+
+def _seconds(s: float) -> pd.Timedelta:
+    return pd.Timedelta(seconds=float(s))
+
+
+_NO_TIME = _seconds(0.0)
+
+
+def _after(start: pd.Timestamp, seconds: float) -> pd.Timestamp:
+    """``start + _seconds(seconds)``; for 0 s in the unit of ``start``, ``start`` itself (the same
+    instant, unit, zone and fold; checked in tests/test_readers_edf_speed_equivalence.py)."""
+    if seconds == 0.0 and start.unit == _NO_TIME.unit:
+        return start
+    return start + _seconds(seconds)
+
+
+_UTC = dt.timezone.utc
+
+
+def _local_start(naive: dt.datetime, tz: str) -> pd.Timestamp:
+    """``localize(naive, tz)`` for a header start (naive, whole seconds), built in one step when
+    the wall time exists once in ``tz`` (no spring-forward gap): the same instant, unit, zone and
+    fold (checked in tests/test_readers_edf_speed_equivalence.py)."""
+    tzinfo = pandas_tzinfo(tz)
+    if not isinstance(tzinfo, ZoneInfo) or naive.tzinfo is not None or naive.microsecond or naive.fold:
+        return localize(naive, tz)
+    local = naive.replace(tzinfo=tzinfo).astimezone(_UTC).astimezone(tzinfo)
+    if local.replace(tzinfo=None) != naive:
+        return localize(naive, tz)  # a gap time comes back shifted: localize's own path, same result
+    return pd.Timestamp(local)
+
+
+def _record_onsets(header, keep, problems) -> np.ndarray:
+    """Onset (s from the header start) of every data record: the time-keeping TALs of EDF+
+    (``keep``, NaN where a record has none), else contiguous records from the first one
+    (Kemp & Olivan 2003)."""
+    first = float(keep[0])
+    if not math.isfinite(first) or abs(first) > 86400 * MAX_RECORDING_DAYS:
+        first = 0.0
+    if first != 0.0 and not 0.0 <= first < 1.0:
+        problems.append(Problem("info", f"the first data record starts {first:g} s after the header start time"))
+    n, duration = header.n_records, header.record_duration_s
+    contiguous = first + (_record_steps(n, duration) if n <= 100_000 else np.arange(n) * duration)
+    if header.variant != "EDF+D":
+        drift = np.abs(keep - contiguous)
+        if header.annotation_indices and (drift > 1e-3).any():  # NaN (no time-keeping TAL) is no drift
+            problems.append(Problem("warning", "EDF+C data records are not contiguous by their time-keeping "
+                                               "annotations; records are taken as contiguous"))
+        return contiguous
+    return np.where(np.isfinite(keep), keep, contiguous)
+
+
+@functools.lru_cache(maxsize=16)
+def _record_steps(n_records: int, record_duration_s: float) -> np.ndarray:
+    """np.arange(n_records) * record_duration_s, read-only: files of one study share it."""
+    steps = np.arange(n_records) * record_duration_s
+    steps.flags.writeable = False
+    return steps
+
+
+def _lights(markers, header_start, problems):
+    """Lights off (first marker) and lights on (last marker) as tz-aware times."""
+    limit = 86400.0 * MAX_RECORDING_DAYS
+    if any(abs(t) > limit for _, t in markers):
+        problems.append(Problem("warning", f"lights markers more than {MAX_RECORDING_DAYS} days from the start are ignored"))
+        markers = [(kind, t) for kind, t in markers if abs(t) <= limit]
+    offs = sorted(t for kind, t in markers if kind == "off")
+    ons = sorted(t for kind, t in markers if kind == "on")
+    if len(offs) > 1:
+        problems.append(Problem("info", f"lights-off markers: {len(offs)}; the first is used"))
+    if len(ons) > 1:
+        problems.append(Problem("info", f"lights-on markers: {len(ons)}; the last is used"))
+    off = header_start + _seconds(offs[0]) if offs else None
+    on = header_start + _seconds(ons[-1]) if ons else None
+    if off is not None and on is not None and on <= off:
+        problems.append(Problem("warning", f"lights on ({on}) is not after lights off ({off}); lights on is ignored", on))
+        on = None
+    return off, on
