@@ -42,8 +42,6 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .parameters import _runs
-
 if TYPE_CHECKING:  # pragma: no cover
     from ..config import ActigraphySection
 
@@ -98,10 +96,38 @@ def epochs_to_minutes(counts: np.ndarray, epoch_s: float) -> np.ndarray:
         return blocks.sum(axis=1)
     # Column by column, left to right: the same additions, in the same order, as
     # blocks.sum(axis=1) for rows shorter than 8 (bit-identical), and far faster.
-    out = blocks[:, 0].copy()
-    for j in range(1, k):
+    if k == 1:
+        return blocks[:, 0].copy()
+    out = np.add(blocks[:, 0], blocks[:, 1])
+    for j in range(2, k):
         out += blocks[:, j]
     return out
+
+
+def _run_bounds(x: np.ndarray) -> np.ndarray:
+    """Run boundaries of a non-empty 1-D array: 0, every i with x[i] != x[i−1], then x.size.
+
+    Run r is x[b[r]:b[r + 1]]; the same runs as ``parameters._runs`` (starts =
+    b[:-1], lengths = diff(b)), without building the lengths and values.
+    """
+    change = np.flatnonzero(x[1:] != x[:-1])
+    bounds = np.empty(change.size + 2, dtype=np.intp)
+    bounds[0] = 0
+    np.add(change, 1, out=bounds[1:-1])
+    bounds[-1] = x.size
+    return bounds
+
+
+def _fill_runs(out: np.ndarray, starts: np.ndarray, lengths: np.ndarray, value: bool) -> None:
+    """out[s : s + l] = value for every (s, l) of ``starts``/``lengths`` (disjoint runs, l ≥ 0).
+
+    Writes only the minutes of the runs (their indices built from the run
+    table), so its cost follows the minutes rescored, not the series length.
+    """
+    total = int(lengths.sum())
+    if total:
+        offsets = np.cumsum(lengths) - lengths  # where each run begins in the index list
+        out[np.arange(total) + np.repeat(starts - offsets, lengths)] = value
 
 
 def cole_kripke_index(
@@ -124,11 +150,22 @@ def cole_kripke_index(
     a = _as_1d_float(counts_1min, "counts_1min")
     missing = np.isnan(a)
     p, w = COLE_KRIPKE_COEFFICIENTS[coefficients]
-    filled = np.where(missing, 0.0, a) * float(count_scale)
-    padded = np.concatenate((np.zeros(_CK_BEFORE), filled, np.zeros(_CK_AFTER)))
+    n = a.size
+    scale = float(count_scale)
+    # The scaled counts written straight into the zero-padded buffer: the same
+    # values as zero-padding where(missing, 0, a)·scale (a missing minute gets
+    # 0·scale, as there), without the two temporaries.
+    padded = np.zeros(_CK_BEFORE + n + _CK_AFTER)
+    body = padded[_CK_BEFORE : _CK_BEFORE + n]
+    np.multiply(a, scale, out=body)
+    any_missing = bool(missing.any())
+    if any_missing:
+        body[missing] = 0.0 * scale
     # correlate: out[t] = Σ_j padded[t + j] · w[j] = Σ_k w_k · A[t + k], k = j − 4.
-    d = p * np.correlate(padded, np.asarray(w), mode="valid")
-    d[missing] = np.nan
+    d = np.correlate(padded, np.asarray(w), mode="valid")
+    d *= p  # the products p·x, in place
+    if any_missing:
+        d[missing] = np.nan
     return d
 
 
@@ -154,30 +191,39 @@ def webster_rescore(sleep: np.ndarray) -> np.ndarray:
     if s.ndim != 1:
         raise ValueError(f"sleep must be a 1-D array, got shape {s.shape}")
     out = s.copy()
-    if s.size == 0:
+    n = s.size
+    if n == 0:
         return out
+    # Worked on the table of sleep runs [st, en) only: runs alternate, so the
+    # wake run before a sleep run is [end of the previous sleep run (or 0), st)
+    # and the one after it is [en, next sleep start (or n)); a length of 0
+    # there means "no wake run" (an end of the series), as in the rules.
+    b = _run_bounds(s)
+    first = 0 if s[0] else 1  # index of the first sleep run among all runs
+    st, en = b[first:-1:2], b[first + 1 :: 2]
+    if st.size == 0:
+        return out
+    length = en - st
 
-    # Rules 1-3: k minutes after each qualifying wake run.
-    starts, lengths, values = _runs(s)
-    k_after = np.zeros(starts.size, dtype=np.intp)  # per run: minutes to rescore at its head
-    prev_wake_len = np.concatenate(([0], np.where(~values[:-1], lengths[:-1], 0)))
+    # Rules 1-3: k minutes at the head of each sleep run after a qualifying wake run.
+    prev_wake = st - np.concatenate(([0], en[:-1]))
+    k_after = np.zeros(st.size, dtype=np.intp)
     for min_wake, k in WEBSTER_AFTER_WAKE:  # ascending k: later rules override
-        k_after = np.where(values & (prev_wake_len >= min_wake), k, k_after)
-    pos_in_run = np.arange(s.size) - np.repeat(starts, lengths)
-    out &= ~(pos_in_run < np.repeat(k_after, lengths))
+        k_after = np.where(prev_wake >= min_wake, k, k_after)
+    cut = np.minimum(k_after, length)  # minutes rescored at the head of each run
 
-    # Rules 4-5 on the rescored series.
-    starts, lengths, values = _runs(out)
-    m = starts.size
-    prev_wake = np.zeros(m, dtype=np.intp)
-    next_wake = np.zeros(m, dtype=np.intp)
-    if m > 1:
-        prev_wake[1:] = np.where(~values[:-1], lengths[:-1], 0)
-        next_wake[:-1] = np.where(~values[1:], lengths[1:], 0)
-    flanked = np.zeros(m, dtype=bool)
+    # Rules 4-5 on the runs left by rules 1-3: each sleep run shrinks to
+    # [st + cut, en) (gone if empty); the runs between them are wake.
+    left = cut < length
+    ls, le = st[left] + cut[left], en[left]
+    prev_w = ls - np.concatenate(([0], le[:-1]))
+    next_w = np.concatenate((ls[1:], [n])) - le
+    flanked = np.zeros(ls.size, dtype=bool)
     for max_sleep, min_wake in WEBSTER_FLANKED:
-        flanked |= values & (lengths <= max_sleep) & (prev_wake >= min_wake) & (next_wake >= min_wake)
-    out &= ~np.repeat(flanked, lengths)
+        flanked |= (le - ls <= max_sleep) & (prev_w >= min_wake) & (next_w >= min_wake)
+    whole = np.zeros(st.size, dtype=bool)
+    whole[left] = flanked  # a flanked run turns wake from its original start on
+    _fill_runs(out, st, np.where(whole, length, cut), False)
     return out
 
 

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .parameters import _runs
+from .actigraphy import _fill_runs, _run_bounds
 
 
 def choi_nonwear(
@@ -44,31 +44,34 @@ def choi_nonwear(
     if a.size == 0:
         return np.zeros(0, dtype=bool)
 
-    # 0 = zero count, 1 = non-zero count, 2 = missing.
-    state = np.where(np.isnan(a), 2, np.where(a == 0, 0, 1)).astype(np.int8)
-    starts, lengths, values = _runs(state)
+    # 0 = zero count, 1 = non-zero count, 2 = missing (NaN != 0 is True: 1 + 1).
+    state = np.add(a != 0, np.isnan(a), dtype=np.int8)
+    bounds = _run_bounds(state)
+    starts, lengths = bounds[:-1], np.diff(bounds)
+    values = state[starts]
     m = starts.size
-    prev_len = np.zeros(m, dtype=np.intp)
-    next_len = np.zeros(m, dtype=np.intp)
-    prev_val = np.full(m, -1, dtype=np.int8)
-    next_val = np.full(m, -1, dtype=np.int8)
-    if m > 1:
-        prev_len[1:], prev_val[1:] = lengths[:-1], values[:-1]
-        next_len[:-1], next_val[:-1] = lengths[1:], values[1:]
 
-    # Interruptions that are allowed become part of the zero stretch.
-    allowed = (
-        (values == 1)
-        & (lengths <= spike_tolerance_min)
-        & (prev_val == 0)
-        & (prev_len >= window_min)
-        & (next_val == 0)
-        & (next_len >= window_min)
-    )
+    # Interruptions that are allowed become part of the zero stretch. The first
+    # and the last run have no run on one side, so only runs 1 … m−2 can be
+    # allowed; for them the neighbours are the runs just before and after.
+    allowed = np.zeros(m, dtype=bool)
+    if m > 2:
+        allowed[1:-1] = (
+            (values[1:-1] == 1)
+            & (lengths[1:-1] <= spike_tolerance_min)
+            & (values[:-2] == 0)
+            & (lengths[:-2] >= window_min)
+            & (values[2:] == 0)
+            & (lengths[2:] >= window_min)
+        )
     quiet = (values == 0) | allowed
-    q = np.repeat(quiet, lengths)
 
-    # Periods: maximal quiet stretches of >= min_length_min minutes.
-    q_starts, q_lengths, q_values = _runs(q)
-    long_enough = q_values & (q_lengths >= min_length_min)
-    return np.repeat(long_enough, q_lengths)
+    # Periods: maximal quiet stretches of >= min_length_min minutes. A stretch
+    # is a group of consecutive runs with the same ``quiet``, found on the run
+    # table: the same stretches as the runs of np.repeat(quiet, lengths).
+    groups = _run_bounds(quiet)  # run indices where ``quiet`` changes
+    g_start, g_end = bounds[groups[:-1]], bounds[groups[1:]]
+    long_enough = quiet[groups[:-1]] & (g_end - g_start >= min_length_min)
+    out = np.zeros(a.size, dtype=bool)
+    _fill_runs(out, g_start[long_enough], (g_end - g_start)[long_enough], True)
+    return out
