@@ -9,7 +9,7 @@ import contextlib
 import os
 import tempfile
 from pathlib import Path
-from typing import Iterator
+from typing import Iterable, Iterator
 
 
 @contextlib.contextmanager
@@ -31,6 +31,15 @@ def atomic_path(path: str | Path, mode: int = 0o644) -> Iterator[Path]:
 def write_bytes(path: str | Path, data: bytes) -> Path:
     with atomic_path(path) as tmp:
         tmp.write_bytes(data)
+    return Path(path)
+
+
+def write_chunks(path: str | Path, chunks: Iterable[str]) -> Path:
+    """Write text given in pieces (UTF-8, newlines as given), atomically."""
+    with atomic_path(path) as tmp:
+        with open(tmp, "w", encoding="utf-8", newline="") as fh:
+            for chunk in chunks:
+                fh.write(chunk)
     return Path(path)
 
 

@@ -29,10 +29,10 @@ import pandas as pd
 
 from . import RESEARCH_CAUTION, __version__
 from ._alloc import tune_allocator
-from .atomic import atomic_path, write_text
+from .atomic import atomic_path, write_chunks, write_text
 from .cache import library_versions
 from .config import StudyConfig, load_config
-from .csvtext import frame_csv
+from .csvtext import csv_chunks
 from .fusion.epoch_table import epoch_rows, epoch_table
 from .fusion.matrix import codebook, participant_matrix
 from .fusion.pairs import agreement_table, paired_nights
@@ -269,7 +269,7 @@ def write_table(df: pd.DataFrame, path_base: Path, fmt: str) -> Path:
     """Write one table atomically as CSV or Parquet."""
     if fmt == "csv":
         path = path_base.with_suffix(".csv")
-        write_text(path, frame_csv(df))  # the text of df.to_csv(index=False, lineterminator="\n"), faster
+        write_chunks(path, csv_chunks(df))  # the text of df.to_csv(index=False, lineterminator="\n"), faster
         return path
     path = path_base.with_suffix(".parquet")
     with atomic_path(path) as tmp:

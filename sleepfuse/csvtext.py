@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import csv
 import io
+from typing import Iterator
 
 import numpy as np
 import pandas as pd
@@ -64,42 +65,57 @@ def _blank(cells: list, missing: np.ndarray) -> list:
     return cells
 
 
-def _texts(column: pd.Series) -> tuple[list[str], bool] | None:
-    """The column's fields as pandas hands them to ``csv.writer`` and it writes them with str()
-    (missing: ""), and whether they may need quoting; None for a type left to pandas."""
+def _column(column: pd.Series) -> tuple[np.ndarray, str] | None:
+    """The column's values and how to write them: "f" float64, "i" integer, "b" bool, "o" objects
+    and text; None for a type left to pandas (dates, categories, nullable types, float32...)."""
     dtype = column.dtype
     if isinstance(dtype, np.dtype):
-        values = column.to_numpy()
-        kind = dtype.kind
-        if dtype == np.float64:  # numpy's astype(str) of a float64 is its repr, the shortest round trip
-            return _blank(list(map(repr, values.tolist())), np.isnan(values)), False
-        if kind in "iu":
-            return list(map(str, values.tolist())), False
-        if kind == "b":
-            return ["True" if v else "False" for v in values.tolist()], False
-        if kind == "O":
-            cells = _blank(values.tolist(), pd.isna(values))
-            return [c if type(c) is str else str(c) for c in cells], True
+        if dtype == np.float64:
+            return column.to_numpy(), "f"
+        if dtype.kind in "iu":
+            return column.to_numpy(), "i"
+        if dtype.kind == "b":
+            return column.to_numpy(), "b"
+        if dtype.kind == "O":
+            return column.to_numpy(), "o"
         return None
     if isinstance(dtype, pd.StringDtype):
-        values = column.to_numpy(dtype=object)
-        return _blank(values.tolist(), pd.isna(values)), True
+        return column.to_numpy(dtype=object), "o"
     return None
+
+
+def _fields(values: np.ndarray, how: str) -> list[str]:
+    """The fields as pandas hands them to ``csv.writer`` and it writes them (missing: "")."""
+    if how == "f":  # numpy's astype(str) of a float64 is its repr, the shortest round trip
+        return _blank(list(map(repr, values.tolist())), np.isnan(values))
+    if how == "i":
+        return list(map(str, values.tolist()))
+    if how == "b":
+        return ["True" if v else "False" for v in values.tolist()]
+    cells = _blank(values.tolist(), pd.isna(values))
+    return _quoted([c if type(c) is str else str(c) for c in cells])
+
+
+BLOCK_ROWS = 4096  # rows formatted at a time: the text of a big table is never all in memory at once
+
+
+def csv_chunks(df: pd.DataFrame, rows: int = BLOCK_ROWS) -> Iterator[str]:
+    """The text of ``df.to_csv(index=False, lineterminator="\n")`` in pieces (header, then blocks of rows)."""
+    names = list(df.columns)
+    columns = None
+    if len(names) >= 2 and all(isinstance(n, str) for n in names) and len(set(names)) == len(names):
+        columns = [_column(df[name]) for name in names]
+    if columns is None or any(c is None for c in columns):
+        # one column (a lone empty field is quoted), odd names or another type: pandas itself
+        yield df.to_csv(index=False, lineterminator="\n")
+        return
+    # every field as csv.writer writes it; rows joined as it joins them (delimiter ",", line end "\n")
+    yield ",".join(_quoted(names)) + "\n"
+    for a in range(0, len(df), rows):
+        fields = [_fields(values[a:a + rows], how) for values, how in columns]
+        yield "\n".join([",".join(row) for row in zip(*fields)]) + "\n"
 
 
 def frame_csv(df: pd.DataFrame) -> str:
     """``df.to_csv(index=False, lineterminator="\n")``, the same text."""
-    names = list(df.columns)
-    if len(names) < 2 or not all(isinstance(n, str) for n in names) or len(set(names)) != len(names):
-        return df.to_csv(index=False, lineterminator="\n")  # one column (a lone empty field is quoted), odd names
-    fields = []
-    for name in names:
-        got = _texts(df[name])
-        if got is None:
-            return df.to_csv(index=False, lineterminator="\n")
-        texts, maybe_quoted = got
-        fields.append(_quoted(texts) if maybe_quoted else texts)
-    # every field as csv.writer writes it; rows joined as it joins them (delimiter ",", line end "\n")
-    lines = [",".join(_quoted(names))]
-    lines += [",".join(row) for row in zip(*fields)]
-    return "\n".join(lines) + "\n"
+    return "".join(csv_chunks(df))

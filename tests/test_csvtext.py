@@ -53,6 +53,18 @@ def test_generated_frames(data, n):
     assert frame_csv(df) == pandas_csv(df)
 
 
+def test_blocks_of_rows_join_to_the_same_text():
+    from sleepfuse.csvtext import csv_chunks
+
+    rng = np.random.default_rng(2)
+    df = pd.DataFrame({"a": rng.normal(size=1000), "b": rng.choice(["x", "y,z", ""], size=1000),
+                       "c": rng.integers(0, 9, 1000), "d": rng.random(1000) < 0.5})
+    for rows in (1, 7, 999, 1000, 4096):
+        chunks = list(csv_chunks(df, rows=rows))
+        assert len(chunks) == 1 + -(-len(df) // rows)
+        assert "".join(chunks) == pandas_csv(df)
+
+
 @pytest.mark.parametrize("df", [
     pd.DataFrame(),
     pd.DataFrame(columns=["a", "b"]),
