@@ -75,6 +75,15 @@ def _min_epochs(minutes: float, epoch_min: float, *, at_least: int = 1) -> int:
     return max(at_least, math.ceil(minutes / epoch_min - 1e-9))
 
 
+def _check_options(epoch_s: float, lps_run_min: float, min_wake_bout_min: float) -> None:
+    if not epoch_s > 0:
+        raise ValueError(f"epoch_s must be a positive number of seconds, got {epoch_s!r}")
+    if not lps_run_min > 0:
+        raise ValueError(f"lps_run_min must be a positive number of minutes, got {lps_run_min!r}")
+    if not min_wake_bout_min >= 0:
+        raise ValueError(f"min_wake_bout_min must be zero or more minutes, got {min_wake_bout_min!r}")
+
+
 def _check_codes(codes: np.ndarray) -> np.ndarray:
     codes = np.asarray(codes)
     if codes.ndim != 1:
@@ -128,12 +137,7 @@ def sleep_parameters(
     No sleep at all: tst 0, se 0, spt 0, waso 0, nwak 0 and sol, lps,
     terminal_wake, rem_latency, ``*_pct`` NaN. Empty window: tib 0, all else NaN.
     """
-    if not epoch_s > 0:
-        raise ValueError(f"epoch_s must be a positive number of seconds, got {epoch_s!r}")
-    if not lps_run_min > 0:
-        raise ValueError(f"lps_run_min must be a positive number of minutes, got {lps_run_min!r}")
-    if not min_wake_bout_min >= 0:
-        raise ValueError(f"min_wake_bout_min must be zero or more minutes, got {min_wake_bout_min!r}")
+    _check_options(epoch_s, lps_run_min, min_wake_bout_min)
     codes = _check_codes(codes)
     keys = COMMON_PARAMETERS + EXTRA_PARAMETERS + (STAGE_PARAMETERS if staged else ())
     n = codes.size
@@ -217,12 +221,7 @@ def sleep_parameters_many(
     overhead when a record has many nights. Unknown codes in any window raise
     ValueError, as ``sleep_parameters`` does for that window.
     """
-    if not epoch_s > 0:
-        raise ValueError(f"epoch_s must be a positive number of seconds, got {epoch_s!r}")
-    if not lps_run_min > 0:
-        raise ValueError(f"lps_run_min must be a positive number of minutes, got {lps_run_min!r}")
-    if not min_wake_bout_min >= 0:
-        raise ValueError(f"min_wake_bout_min must be zero or more minutes, got {min_wake_bout_min!r}")
+    _check_options(epoch_s, lps_run_min, min_wake_bout_min)
     arrays = [np.asarray(c) for c in windows]
     m = len(arrays)
     if m == 0:
