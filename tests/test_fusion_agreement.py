@@ -448,3 +448,15 @@ def test_ols_p_value_is_scipy_t_survival():
         y = 0.3 * x + rng.normal(size=n)
         fit = stats.linregress(x, y)
         assert _ols(x, y)[3] == pytest.approx(fit.pvalue, rel=1e-12, abs=1e-300)
+
+
+@pytest.mark.parametrize("confidence", [0.5, 0.8, 0.9, 0.95, 0.99, 0.999, 0.6827])
+def test_quantiles_are_scipy_stats_quantiles(confidence):
+    # Source: scipy.stats.norm.ppf and scipy.stats.t.ppf (the module computes them with the
+    # scipy.special functions those call, to spare the import of scipy.stats).
+    from sleepfuse.fusion.agreement import _t, _z
+
+    q = 0.5 + confidence / 2
+    assert _z(confidence) == float(stats.norm.ppf(q))
+    for df in [*range(1, 400), 1000, 5000, 10**6]:
+        assert _t(confidence, df) == float(stats.t.ppf(q, df)), df
