@@ -41,8 +41,8 @@ def epoch_rows(config: StudyConfig, scored: ScoredParticipant, qc: QCLog) -> lis
     Each night pairs with the first actigraphy record that overlaps its PSG
     window and has an epoch valid at offset 0, as in ``_epoch_rows_careful``
     (the public functions one after the other), which this equals value for
-    value. Per record, its end and its validity mask are computed once (they
-    do not depend on the night); per night, ``night_agreement`` gives the
+    value. Per record, its end is computed once (``valid`` is computed once
+    by ``ActigraphyScoring`` itself); per night, ``night_agreement`` gives the
     agreement, its counts and the offset search from one pass. A search range
     outside [0, 1e6] min (config validation allows (0, 180]) takes the careful
     path, so its errors stay those of ``best_clock_offset``.
@@ -52,7 +52,6 @@ def epoch_rows(config: StudyConfig, scored: ScoredParticipant, qc: QCLog) -> lis
         return _epoch_rows_careful(config, scored, qc)
     rows = []
     ends: dict[int, pd.Timestamp] = {}
-    valid: dict[int, np.ndarray] = {}
     for night, h in sorted(scored.hypnograms.items()):
         window = scored.windows.get((night, "psg"))
         if window is None:
@@ -62,9 +61,7 @@ def epoch_rows(config: StudyConfig, scored: ScoredParticipant, qc: QCLog) -> lis
                 ends[i] = act.start + pd.Timedelta(minutes=act.codes.size)
             if act.start >= window.end or ends[i] <= window.start:
                 continue
-            if i not in valid:
-                valid[i] = act.valid
-            found = night_agreement(h.start, h.epoch_s, h.stages, act.start, 60.0, act.sleep, valid[i],
+            found = night_agreement(h.start, h.epoch_s, h.stages, act.start, 60.0, act.sleep, act.valid,
                                     window=(window.start, window.end), max_offset_min=max_offset)
             if found is None:
                 continue
