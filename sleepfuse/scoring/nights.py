@@ -192,21 +192,6 @@ def score_actigraphy_record(config: StudyConfig, rec: ActigraphyRecord, qc: QCLo
     return ActigraphyScoring(rec.path, rec.start, minutes, sleep, nonwear, codes, marker, used)
 
 
-def score_actigraphy_night(
-    config: StudyConfig,
-    participant: str,
-    night: dt.date,
-    scoring: ActigraphyScoring,
-    diary: DiaryEntry | None,
-    qc: QCLog,
-    out: ScoredParticipant,
-    file: str | None = None,
-) -> None:
-    """Score one night of one actigraphy record; ``file`` is the record's study-relative path if known."""
-    window = actigraphy_window(config, night, scoring, diary)
-    score_actigraphy_windows(config, participant, scoring, [(night, window)], qc, out, file)
-
-
 def actigraphy_window(config: StudyConfig, night: dt.date, scoring: ActigraphyScoring,
                       diary: DiaryEntry | None) -> Window | None:
     """The night's sleep opportunity: diary times, else event markers, else the automatic rest interval."""
