@@ -1,0 +1,7 @@
+"""``python -m sleepfuse``: the same command line as ``sleepfuse``."""
+
+import sys
+
+from sleepfuse.cli import main
+
+sys.exit(main())
