@@ -71,7 +71,7 @@ def baseline_read(root: Path, *, edf_bytes: bool = False) -> int:
 
 
 def batch_once(root: Path, workers: int, *, cache: bool, out: Path) -> float:
-    from sleepfuse.batch import BatchOptions, run_batch
+    from sleepfuse.run.batch import BatchOptions, run_batch
 
     t0 = time.perf_counter()
     result = run_batch(root, BatchOptions(out=out, workers=workers, cache=cache), argv=["bench"])
@@ -92,7 +92,7 @@ def profile(root: Path, out: Path) -> None:
     except ImportError:
         print("--profile needs pyinstrument: pip install pyinstrument")
         return
-    from sleepfuse.batch import BatchOptions, run_batch
+    from sleepfuse.run.batch import BatchOptions, run_batch
 
     profiler = Profiler()
     profiler.start()
@@ -119,7 +119,7 @@ def main(argv: list[str] | None = None) -> int:
           "another in one process; 'baseline+EDF' also reads every EDF file's bytes")
 
     import pandas  # noqa: F401  (both sides import their libraries before the clock starts)
-    import sleepfuse.batch  # noqa: F401
+    import sleepfuse.run.batch  # noqa: F401
 
     times: dict[str, list[float]] = {"baseline": [], "baseline+EDF": [], "batch": [], "batch (first run)": [],
                                      "batch (warm cache)": []}
@@ -143,7 +143,7 @@ def main(argv: list[str] | None = None) -> int:
         py = sys.executable
         reader = ("import sys, pandas as pd; from pathlib import Path; r = Path(sys.argv[1]); "
                   "[pd.read_csv(p, engine='pyarrow') for d in ('actigraphy', 'diary') for p in sorted((r / d).glob('*.csv'))]")
-        cli = [py, "-m", "sleepfuse.cli", "batch", str(root), "--out", str(out), "--workers", str(args.workers), "--no-cache"]
+        cli = [py, "-m", "sleepfuse.cli.main", "batch", str(root), "--out", str(out), "--workers", str(args.workers), "--no-cache"]
         e2e_base, e2e_batch = [], []
         for _ in range(args.repeats):
             e2e_base.append(command_seconds([py, "-c", reader, str(root)]))

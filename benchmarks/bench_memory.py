@@ -81,7 +81,7 @@ def main(argv: list[str] | None = None) -> int:
     for n in sorted(args.n):
         root = ensure_cohort(Path(tempfile.gettempdir()) / f"sleepfuse-bench-{n}", n)
         with tempfile.TemporaryDirectory() as tmp:
-            cmd = [sys.executable, "-m", "sleepfuse.cli", "batch", str(root), "--out", str(Path(tmp) / "out"),
+            cmd = [sys.executable, "-m", "sleepfuse.cli.main", "batch", str(root), "--out", str(Path(tmp) / "out"),
                    "--workers", str(args.workers), "--no-cache"]
             # ru_maxrss of RUSAGE_CHILDREN is a running maximum over all children so far, so
             # sizes run smallest first and each figure is the peak up to and including that run

@@ -2,6 +2,6 @@
 
 import sys
 
-from sleepfuse.cli import main
+from sleepfuse.cli.main import main
 
 sys.exit(main())

@@ -15,11 +15,11 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from sleepfuse.batch import OUTPUT_TABLES, BatchOptions, run_batch
+from sleepfuse.run.batch import OUTPUT_TABLES, BatchOptions, run_batch
 from sleepfuse.fusion.agreement import AGREEMENT_COLUMNS
 from sleepfuse.fusion.epoch_table import EPOCH_COLUMNS
 from sleepfuse.fusion.matrix import CODEBOOK_COLUMNS
-from sleepfuse.qc import QC_COLUMNS
+from sleepfuse.model.qc import QC_COLUMNS
 from sleepfuse.scoring.nights import NIGHT_COLUMNS
 from sleepfuse.synthetic.edf_writer import write_edf_plus
 
@@ -199,7 +199,7 @@ def test_no_edf_patient_field_in_any_output(crafted):
 
 
 def test_review_decision_is_honoured_and_listed(tmp_path):
-    from sleepfuse.review import record_decision
+    from sleepfuse.study.review import record_decision
 
     root = write_study(tmp_path / "study")
     record_decision(root, "A2", NIGHT.isoformat(), "psg", "exclude", "electrode came off")
@@ -227,7 +227,7 @@ def test_parquet_and_workers_give_the_same_tables(tmp_path, crafted):
 
 def test_run_cut_short_leaves_no_provenance(tmp_path, crafted, monkeypatch):
     """provenance.json marks a complete run (common practice for atomic multi-file outputs)."""
-    import sleepfuse.batch as batch
+    import sleepfuse.run.batch as batch
 
     root, _, _ = crafted
     out = tmp_path / "out"
@@ -250,7 +250,7 @@ def test_allocator_tuning_is_applied_once_and_can_be_turned_off():
     import subprocess
     import sys
 
-    code = "from sleepfuse._alloc import tune_allocator as t; print(t(), t())"
+    code = "from sleepfuse.run._alloc import tune_allocator as t; print(t(), t())"
     env = dict(os.environ, SLEEPFUSE_MALLOC_TUNING="0")
     off = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, check=True)
     assert off.stdout.split() == ["False", "False"]

@@ -1,4 +1,4 @@
-"""Tests for sleepfuse.cache: the incremental cache of scored participants beside the study.
+"""Tests for sleepfuse.run.cache: the incremental cache of scored participants beside the study.
 
 The study is invented (sleepfuse.synthetic.cohort, seeded). The checks count
 how often a participant is actually scored (``run_participant`` wrapped) and
@@ -16,10 +16,10 @@ import sqlite3
 import pandas as pd
 import pytest
 
-import sleepfuse.batch as batch
-import sleepfuse.cache as cache_mod
-from sleepfuse.batch import OUTPUT_TABLES, BatchOptions, run_batch
-from sleepfuse.cache import CACHE_DIR, CACHE_FILE, decode_outcome, encode_outcome
+import sleepfuse.run.engine as engine
+import sleepfuse.run.cache as cache_mod
+from sleepfuse.run.batch import OUTPUT_TABLES, BatchOptions, run_batch
+from sleepfuse.run.cache import CACHE_DIR, CACHE_FILE, decode_outcome, encode_outcome
 from sleepfuse.synthetic.cohort import ParticipantPlan, simulate_participant
 
 TZ = "Europe/Berlin"
@@ -54,13 +54,13 @@ def study(tmp_path, template):
 def calls(monkeypatch):
     """Participants scored in this test, in order (serial runs call run_participant here)."""
     seen: list[str] = []
-    real = batch.run_participant
+    real = engine.run_participant
 
     def counting(config, job, inputs=None):
         seen.append(job.participant)
         return real(config, job, inputs)
 
-    monkeypatch.setattr(batch, "run_participant", counting)
+    monkeypatch.setattr(engine, "run_participant", counting)
     return seen
 
 
@@ -144,7 +144,7 @@ def test_new_sleepfuse_version_recomputes_everyone(study, tmp_path, calls, monke
 
 
 def test_review_decisions_do_not_invalidate_the_cache(study, tmp_path, calls):
-    from sleepfuse.review import record_decision
+    from sleepfuse.study.review import record_decision
 
     first = run(study, tmp_path / "o1")
     n = first.tables["nights"]
@@ -233,13 +233,13 @@ def test_source_files_are_never_modified(study, tmp_path):
 def test_outcome_json_round_trip_keeps_nan_bools_and_qc(study, tmp_path):
     import math
 
-    from sleepfuse.config import load_config
-    from sleepfuse.pipeline import plan_jobs
-    from sleepfuse.qc import QCLog
+    from sleepfuse.model.config import load_config
+    from sleepfuse.run.participant import plan_jobs
+    from sleepfuse.model.qc import QCLog
 
     config = load_config(study)
     jobs, _ = plan_jobs(config, QCLog())
-    outcome = batch.run_participant(config, jobs[0])
+    outcome = engine.run_participant(config, jobs[0])
     back = decode_outcome(encode_outcome(outcome))
     assert back.participant == outcome.participant and back.qc == outcome.qc
     assert back.rhythm == outcome.rhythm and back.epoch_rows == outcome.epoch_rows
@@ -253,7 +253,7 @@ def test_outcome_json_round_trip_keeps_nan_bools_and_qc(study, tmp_path):
 
 
 def test_cli_no_cache_and_counts_on_stderr(study, tmp_path, capsys):
-    from sleepfuse.cli import main
+    from sleepfuse.cli.main import main
 
     assert main(["batch", str(study), "--out", str(tmp_path / "o1")]) == 0
     assert "3 computed, 0 from cache" in capsys.readouterr().err
@@ -267,13 +267,13 @@ def test_first_run_leaves_checksums_to_the_workers_and_keys_them_alike(study, tm
     # An empty cache: nobody can be a hit, so the main process checksums nothing before the run;
     # the keys stored from the workers' checksums must be the ones the next run computes itself.
     hashed: list[int] = []
-    real = batch.hash_inputs
+    real = cache_mod.hash_inputs
 
     def counting(config, jobs, workers=2):
         hashed.append(len(jobs))
         return real(config, jobs, workers)
 
-    monkeypatch.setattr(batch, "hash_inputs", counting)
+    monkeypatch.setattr(cache_mod, "hash_inputs", counting)
     first = run(study, tmp_path / "o1")
     assert sum(hashed) == 0 and first.n_recomputed == len(IDS)
     hashed.clear()
@@ -287,9 +287,9 @@ def test_encoded_qc_entries_are_their_dataclass_fields():
     import json
     from dataclasses import asdict
 
-    from sleepfuse.batch import ParticipantOutcome
-    from sleepfuse.cache import decode_outcome, encode_outcome
-    from sleepfuse.qc import QCEntry
+    from sleepfuse.run.engine import ParticipantOutcome
+    from sleepfuse.run.cache import decode_outcome, encode_outcome
+    from sleepfuse.model.qc import QCEntry
 
     entries = [QCEntry("a.csv", "P1", "2026-03-01", "warning", "odd, but kept"), QCEntry("", "P1", "", "info", "é")]
     outcome = ParticipantOutcome("P1", [{"participant": "P1", "tst_min": float("nan")}], {}, [], entries)
@@ -305,8 +305,8 @@ def test_encoded_qc_entries_are_their_dataclass_fields():
 def test_outcome_round_trip_keeps_rows_and_their_key_order():
     import math
 
-    from sleepfuse.batch import ParticipantOutcome
-    from sleepfuse.cache import decode_outcome, encode_outcome
+    from sleepfuse.run.engine import ParticipantOutcome
+    from sleepfuse.run.cache import decode_outcome, encode_outcome
 
     same_keys = [{"participant": "P1", "night": "2026-03-01", "tst_min": 400.5, "included": True},
                  {"participant": "P1", "night": "2026-03-02", "tst_min": float("nan"), "included": False}]
@@ -327,7 +327,7 @@ def test_library_versions_equal_the_installed_metadata():
     import numpy  # noqa: F401
     import pandas  # noqa: F401
 
-    from sleepfuse.cache import library_versions
+    from sleepfuse.run.cache import library_versions
 
     names = ("numpy", "pandas", "scipy", "pyedflib", "pyarrow", "no-such-library-here")
     got = library_versions(names)

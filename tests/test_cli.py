@@ -6,7 +6,7 @@ import pandas as pd
 import pytest
 
 from sleepfuse import __version__
-from sleepfuse.cli import main
+from sleepfuse.cli.main import main
 from pathlib import Path
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_records"

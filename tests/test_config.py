@@ -4,8 +4,8 @@ from pathlib import Path
 
 import pytest
 
-from sleepfuse.config import build_config, load_config
-from sleepfuse.errors import ConfigError
+from sleepfuse.model.config import build_config, load_config
+from sleepfuse.model.errors import ConfigError
 
 
 def test_defaults_without_study_toml(tmp_path):

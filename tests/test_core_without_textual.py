@@ -5,8 +5,8 @@ from __future__ import annotations
 import subprocess
 import sys
 
-CORE = ["sleepfuse.readers", "sleepfuse.scoring", "sleepfuse.fusion", "sleepfuse.batch", "sleepfuse.pipeline",
-        "sleepfuse.fusion.disagreement", "sleepfuse.workspace", "sleepfuse.review", "sleepfuse.tui.cli"]
+CORE = ["sleepfuse.readers", "sleepfuse.scoring", "sleepfuse.fusion", "sleepfuse.run.batch", "sleepfuse.run.participant",
+        "sleepfuse.fusion.disagreement", "sleepfuse.run.session", "sleepfuse.study.review", "sleepfuse.cli.open_command"]
 
 
 def test_core_modules_import_without_textual():

@@ -11,7 +11,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from sleepfuse.csvtext import frame_csv
+from sleepfuse.output.csvtext import frame_csv
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -22,7 +22,7 @@ def pandas_csv(df: pd.DataFrame) -> str:
 
 def test_every_output_table_of_the_sample_study(tmp_path):
     # Reference: pandas DataFrame.to_csv on the very tables batch writes.
-    from sleepfuse.batch import BatchOptions, run_batch
+    from sleepfuse.run.batch import BatchOptions, run_batch
 
     result = run_batch(ROOT / "sample_records", BatchOptions(out=tmp_path / "out", cache=False), argv=["test"])
     for name, table in result.tables.items():
@@ -54,7 +54,7 @@ def test_generated_frames(data, n):
 
 
 def test_blocks_of_rows_join_to_the_same_text():
-    from sleepfuse.csvtext import csv_chunks
+    from sleepfuse.output.csvtext import csv_chunks
 
     rng = np.random.default_rng(2)
     df = pd.DataFrame({"a": rng.normal(size=1000), "b": rng.choice(["x", "y,z", ""], size=1000),

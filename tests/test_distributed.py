@@ -1,4 +1,4 @@
-"""Tests for sleepfuse.distributed: batch on a Dask cluster gives the single-process outputs.
+"""Tests for sleepfuse.run.distributed: batch on a Dask cluster gives the single-process outputs.
 
 A LocalCluster of 2 single-threaded worker processes scores a small invented
 study (sleepfuse.synthetic.cohort, seeded); every output table must equal
@@ -15,7 +15,7 @@ import sys
 import pandas as pd
 import pytest
 
-from sleepfuse.batch import OUTPUT_TABLES, BatchOptions, run_batch
+from sleepfuse.run.batch import OUTPUT_TABLES, BatchOptions, run_batch
 from sleepfuse.synthetic.cohort import ParticipantPlan, simulate_participant
 
 TZ = "America/Chicago"
@@ -51,7 +51,7 @@ def test_local_cluster_outputs_equal_the_single_process_run(study, tmp_path):
 
 
 def test_missing_dask_gives_the_install_hint(study, tmp_path, monkeypatch):
-    from sleepfuse.distributed import DaskUnavailable
+    from sleepfuse.run.distributed import DaskUnavailable
 
     monkeypatch.setitem(sys.modules, "distributed", None)  # import distributed now raises ImportError
     with pytest.raises(DaskUnavailable, match=r"sleepfuse\[cluster\]"):
@@ -60,7 +60,7 @@ def test_missing_dask_gives_the_install_hint(study, tmp_path, monkeypatch):
 
 
 def test_cli_reports_missing_dask_and_exits_2(study, tmp_path, monkeypatch, capsys):
-    from sleepfuse.cli import main
+    from sleepfuse.cli.main import main
 
     monkeypatch.setitem(sys.modules, "distributed", None)
     assert main(["batch", str(study), "--out", str(tmp_path / "o"), "--no-cache", "--scheduler", "local"]) == 2
@@ -69,7 +69,7 @@ def test_cli_reports_missing_dask_and_exits_2(study, tmp_path, monkeypatch, caps
 
 def test_unreachable_scheduler_is_a_clear_error(study, tmp_path, monkeypatch):
     pytest.importorskip("distributed")
-    import sleepfuse.distributed as d
+    import sleepfuse.run.distributed as d
 
     monkeypatch.setattr(d, "CONNECT_TIMEOUT", "2s")
     with pytest.raises(d.DaskUnavailable, match="cannot reach the Dask scheduler"):

@@ -6,7 +6,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from sleepfuse.errors import ConfigError
+from sleepfuse.model.errors import ConfigError
 from sleepfuse.explore.columns import ColumnSet, block_columns, column_sets, columns_by_pattern, prepare
 
 MATRIX_COLUMNS = [

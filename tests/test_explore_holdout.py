@@ -6,7 +6,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from sleepfuse.errors import ConfigError
+from sleepfuse.model.errors import ConfigError
 from sleepfuse.explore.holdout import split_participants
 from sleepfuse.explore.selection import explore
 

@@ -403,7 +403,7 @@ def test_paired_nights_equal_a_pandas_inner_merge(variant, seed):
 def test_agreement_table_equals_agreement_of_each_merged_pair(seed):
     # Reference: the pandas inner merge of each pair, then ``agreement`` row by row with the public
     # ``multi_night_limits`` (the table's shortcuts must not change a value).
-    from sleepfuse.definitions import PAIRS, PARAMETERS
+    from sleepfuse.model.definitions import PAIRS, PARAMETERS
     from sleepfuse.fusion.pairs import agreement_table, shared_parameters
     from sleepfuse.scoring.nights import PARAMETER_COLUMNS
 

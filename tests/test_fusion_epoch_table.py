@@ -6,12 +6,12 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from sleepfuse.config import build_config
-from sleepfuse.qc import QCLog
-from sleepfuse.records import Hypnogram
+from sleepfuse.model.config import build_config
+from sleepfuse.model.qc import QCLog
+from sleepfuse.model.records import Hypnogram
 from sleepfuse.scoring.nights import ActigraphyScoring, ScoredParticipant
 from sleepfuse.scoring.opportunity import Window
-from sleepfuse.stages import Stage
+from sleepfuse.model.stages import Stage
 from sleepfuse.fusion.epoch_table import epoch_rows
 
 TZ = "Europe/Berlin"

@@ -9,7 +9,7 @@ import pandas as pd
 import pytest
 
 from sleepfuse.fusion.epochs import best_clock_offset, common_grid, epoch_agreement
-from sleepfuse.stages import Stage
+from sleepfuse.model.stages import Stage
 
 T0 = pd.Timestamp("2024-03-04 23:00:00", tz="America/Chicago")
 

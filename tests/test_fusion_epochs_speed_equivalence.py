@@ -17,17 +17,17 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from sleepfuse.config import build_config, load_config
+from sleepfuse.model.config import build_config, load_config
 from sleepfuse.fusion import epochs
 from sleepfuse.fusion.epoch_table import _counts, _epoch_rows_careful, epoch_rows
 from sleepfuse.fusion.epochs import best_clock_offset, common_grid, epoch_agreement
-from sleepfuse.pipeline import process_participant
-from sleepfuse.qc import QCLog
-from sleepfuse.records import Hypnogram
+from sleepfuse.run.participant import process_participant
+from sleepfuse.model.qc import QCLog
+from sleepfuse.model.records import Hypnogram
 from sleepfuse.scoring.nights import ActigraphyScoring, ScoredParticipant
 from sleepfuse.scoring.opportunity import Window
-from sleepfuse.stages import Stage, is_sleep
-from sleepfuse.study import plan_jobs
+from sleepfuse.model.stages import Stage, is_sleep
+from sleepfuse.study.folder import plan_jobs
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_records"
 

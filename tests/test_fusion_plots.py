@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 from sleepfuse.fusion.agreement import agreement
-from sleepfuse.fusion.plots import bland_altman_figure, save_figure
+from sleepfuse.output.figures import bland_altman_figure, save_figure
 
 
 def _proportional_case():
@@ -101,6 +101,6 @@ def test_save_figure_writes_png_and_svg(tmp_path):
 
 def test_importing_the_module_does_not_import_matplotlib():
     # House style: matplotlib is loaded lazily, only when a figure is drawn.
-    code = "import sys, sleepfuse.fusion.plots; print('matplotlib' in sys.modules)"
+    code = "import sys, sleepfuse.output.figures; print('matplotlib' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "False"

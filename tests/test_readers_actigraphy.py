@@ -16,8 +16,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from sleepfuse.errors import ReadError
-from sleepfuse.records import ActigraphyRecord
+from sleepfuse.model.errors import ReadError
+from sleepfuse.model.records import ActigraphyRecord
 from sleepfuse.readers.actigraphy import ACTIGRAPHY_DEFAULT_COLUMNS, read_actigraphy
 
 UTC = dt.timezone.utc

@@ -7,7 +7,7 @@ import hashlib
 
 import pytest
 
-from sleepfuse.errors import ReadError
+from sleepfuse.model.errors import ReadError
 from sleepfuse.readers.actigraphy import read_actigraphy
 from sleepfuse.readers.diary import read_diary
 from sleepfuse.readers.edf import read_hypnogram

@@ -14,11 +14,11 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from sleepfuse.config import DIARY_COLUMN_KEYS
-from sleepfuse.errors import ReadError
-from sleepfuse.records import Diary
+from sleepfuse.model.config import DIARY_COLUMN_KEYS
+from sleepfuse.model.errors import ReadError
+from sleepfuse.model.records import Diary
 from sleepfuse.readers.diary import DIARY_DEFAULT_COLUMNS, read_diary
-from sleepfuse.timeutil import elapsed_min
+from sleepfuse.model.clock import elapsed_min
 
 HEADER = "night,bedtime,tried_to_sleep,sol_min,nwak,waso_min,final_awakening,out_of_bed,quality"
 

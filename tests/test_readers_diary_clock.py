@@ -14,7 +14,7 @@ import datetime as dt
 import pytest
 
 from sleepfuse.readers import diary
-from sleepfuse.timeutil import clock_on_night
+from sleepfuse.model.clock import clock_on_night
 
 
 def careful(clock: dt.time, night: dt.date, tz: str):

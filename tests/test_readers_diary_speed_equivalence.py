@@ -26,7 +26,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from sleepfuse.readers import diary
-from sleepfuse.timeutil import clock_on_night, localize
+from sleepfuse.model.clock import clock_on_night, localize
 
 ZONES = ("Europe/Berlin", "America/Chicago", "Australia/Lord_Howe", "UTC")
 

@@ -21,11 +21,11 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from edf_builders import write_edf_plus, write_signal_hypnogram
-from sleepfuse.errors import ConfigError, ReadError
+from sleepfuse.model.errors import ConfigError, ReadError
 from sleepfuse.readers import _edfplus
 from sleepfuse.readers.edf import DEFAULT_SIGNAL_CODES, DEFAULT_STAGE_LABELS, read_hypnogram, stage_code
-from sleepfuse.records import Hypnogram
-from sleepfuse.stages import Stage
+from sleepfuse.model.records import Hypnogram
+from sleepfuse.model.stages import Stage
 
 W, N1, N2, N3, R, U = 0, 1, 2, 3, 4, -1
 START = dt.datetime(2026, 2, 10, 22, 45, 10)

@@ -6,7 +6,7 @@ builds the header start time in one step; ``edf._stage_grid`` fills the epochs w
 ranking the stage rows when no epoch is covered twice; ``edf._read_header_bytes`` reads with
 ``os.read``. Each is compared with the reference it stands in for: ``read_annotations_careful``
 (``parse_tals`` record by record, after the TAL grammar of the EDF+ specification, Kemp &
-Olivan 2003, Clin Neurophysiol 114:1755-1761, section 2.2), ``sleepfuse.timeutil.localize``,
+Olivan 2003, Clin Neurophysiol 114:1755-1761, section 2.2), ``sleepfuse.model.clock.localize``,
 a straightforward epoch-by-epoch painting of the stage rows (the rule in the
 ``read_hypnogram`` docstring), and ``open(path, "rb").read()``.
 Invented bytes and recordings only.
@@ -29,12 +29,12 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from edf_builders import tal, write_edf_plus, write_signal_hypnogram
-from sleepfuse.errors import ReadError
+from sleepfuse.model.errors import ReadError
 from sleepfuse.readers import _edfplus as edfplus
 from sleepfuse.readers import edf
 from sleepfuse.readers.edf import read_hypnogram
-from sleepfuse.stages import Stage
-from sleepfuse.timeutil import localize
+from sleepfuse.model.stages import Stage
+from sleepfuse.model.clock import localize
 
 START = dt.datetime(2031, 3, 4, 22, 16, 52)
 
@@ -214,7 +214,7 @@ def _transitions(zone_name: str, year: int) -> list[dt.datetime]:
                                        "America/Sao_Paulo", "Pacific/Apia", "Asia/Kolkata", "UTC", "Etc/UTC",
                                        "Etc/GMT+5"])
 def test_header_start_is_localize_to_the_unit_zone_and_fold(zone_name):
-    # Source of the rule: sleepfuse.timeutil.localize (a gap time is shifted forward, PEP 495 fold=0).
+    # Source of the rule: sleepfuse.model.clock.localize (a gap time is shifted forward, PEP 495 fold=0).
     times = [dt.datetime(1985, 1, 1), dt.datetime(2084, 12, 31, 23, 59, 59), START]
     for year in (2011, 2026):
         for change in _transitions(zone_name, year):

@@ -25,7 +25,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from edf_builders import tal, write_edf_plus, write_signal_hypnogram
-from sleepfuse.errors import ReadError
+from sleepfuse.model.errors import ReadError
 from sleepfuse.readers import _edfheader, _edfplus, _edfsignal, _edfstages, _edftals, _edftimes, edf
 
 START = dt.datetime(2031, 3, 4, 22, 16, 52)

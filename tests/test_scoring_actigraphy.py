@@ -12,7 +12,7 @@ import math
 import numpy as np
 import pytest
 
-from sleepfuse.config import ActigraphySection
+from sleepfuse.model.config import ActigraphySection
 from sleepfuse.scoring.actigraphy import (
     COLE_KRIPKE_COEFFICIENTS,
     cole_kripke,

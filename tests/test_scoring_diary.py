@@ -5,9 +5,9 @@ import math
 
 import pytest
 
-from sleepfuse.records import DiaryEntry
+from sleepfuse.model.records import DiaryEntry
 from sleepfuse.scoring.diary import DiaryRowRejected, diary_parameters
-from sleepfuse.timeutil import clock_on_night
+from sleepfuse.model.clock import clock_on_night
 
 TZ = "America/Chicago"
 

@@ -7,8 +7,8 @@ import datetime as dt
 import numpy as np
 import pandas as pd
 
-from sleepfuse.pipeline import run_study
-from sleepfuse.records import Hypnogram
+from sleepfuse.run.participant import run_study
+from sleepfuse.model.records import Hypnogram
 from sleepfuse.scoring.opportunity import (
     RULE_DETECTOR,
     RULE_LIGHTS,
@@ -19,7 +19,7 @@ from sleepfuse.scoring.opportunity import (
     marker_window,
     psg_window,
 )
-from sleepfuse.stages import Stage
+from sleepfuse.model.stages import Stage
 from sleepfuse.synthetic.edf_writer import write_edf_plus
 
 TZ = "America/Chicago"

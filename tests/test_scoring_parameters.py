@@ -16,7 +16,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from sleepfuse.scoring.parameters import COMMON_PARAMETERS, STAGE_PARAMETERS, sleep_parameters
-from sleepfuse.stages import Stage
+from sleepfuse.model.stages import Stage
 
 W, N1, N2, N3, R, S, U, OFF = 0, 1, 2, 3, 4, 5, -1, -2
 

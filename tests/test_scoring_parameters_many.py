@@ -16,7 +16,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from sleepfuse.scoring.parameters import sleep_parameters, sleep_parameters_many
-from sleepfuse.stages import Stage
+from sleepfuse.model.stages import Stage
 
 CODES = [int(s) for s in Stage]
 

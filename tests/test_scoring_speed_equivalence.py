@@ -22,7 +22,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from sleepfuse.config import ActigraphySection
+from sleepfuse.model.config import ActigraphySection
 from sleepfuse.scoring import rhythm as R
 from sleepfuse.scoring.actigraphy import (
     COLE_KRIPKE_COEFFICIENTS,

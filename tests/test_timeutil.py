@@ -4,7 +4,7 @@ import datetime as dt
 
 import pandas as pd
 
-from sleepfuse.timeutil import clock_on_night, elapsed_min, night_of, nights_of
+from sleepfuse.model.clock import clock_on_night, elapsed_min, night_of, nights_of
 
 TZ = "America/Chicago"  # DST ends 2026-11-01 02:00 (IANA tz database), starts 2026-03-08 02:00
 

@@ -13,7 +13,7 @@ import pytest
 from textual.widgets import DataTable, Input, Static
 
 from sleepfuse import RESEARCH_CAUTION
-from sleepfuse.pipeline import run_study
+from sleepfuse.run.participant import run_study
 from sleepfuse.tui.app import create_app
 from sleepfuse.tui.screens.agreement import AgreementScreen
 from sleepfuse.tui.screens.disagreements import DisagreementScreen
@@ -258,7 +258,7 @@ def test_cli_without_terminal_says_so_and_exits_2(tmp_path):
 
     code = (
         "import argparse, sys\n"
-        "from sleepfuse.tui.cli import add_open_parser\n"
+        "from sleepfuse.cli.open_command import add_open_parser\n"
         "p = argparse.ArgumentParser(); sub = p.add_subparsers(); add_open_parser(sub)\n"
         f"a = p.parse_args(['open', {str(SAMPLE)!r}])\n"
         "rc = a.func(a)\n"

@@ -12,12 +12,12 @@ import pytest
 from textual.widgets import DataTable, Input, Static
 
 from sleepfuse.explore.names import EXPLORATORY_CAUTION
-from sleepfuse.pipeline import run_study
+from sleepfuse.run.participant import run_study
 from sleepfuse.tui.app import create_app
 from sleepfuse.tui.screens.explore import ExploreScreen
 from sleepfuse.tui.screens.help import HelpScreen
 from sleepfuse.tui.screens.overview import OverviewScreen
-from sleepfuse.workspace import Workspace
+from sleepfuse.run.session import Workspace
 
 from tui_helpers import SAMPLE, run_async, settle
 

@@ -6,7 +6,7 @@ import pandas as pd
 
 from tui_helpers import copy_study
 
-from sleepfuse.workspace import StudyLoader
+from sleepfuse.run.session import StudyLoader
 
 
 def _load(root, **kw):

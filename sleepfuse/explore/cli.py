@@ -15,7 +15,7 @@ from typing import TYPE_CHECKING
 
 import pandas as pd
 
-from sleepfuse.errors import ConfigError
+from sleepfuse.model.errors import ConfigError
 from sleepfuse.explore.columns import BLOCKS, PARTICIPANT
 from sleepfuse.explore.names import EXPLORATORY_CAUTION, FAMILIES
 from sleepfuse.explore.output import write_csv_atomic

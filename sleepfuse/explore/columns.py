@@ -22,7 +22,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from sleepfuse.errors import ConfigError
+from sleepfuse.model.errors import ConfigError
 
 SOURCES = ("diary", "actigraphy", "psg")
 BLOCKS = SOURCES + ("all",)

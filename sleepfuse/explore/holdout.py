@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from sleepfuse.errors import ConfigError
+from sleepfuse.model.errors import ConfigError
 from sleepfuse.explore.columns import PreparedData
 from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures
 from sleepfuse.explore.selection import HoldoutResult, preferred_fit

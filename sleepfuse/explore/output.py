@@ -1,11 +1,11 @@
-"""Atomic writes for the explore outputs, through sleepfuse.atomic (temp file + rename)."""
+"""Atomic writes for the explore outputs, through sleepfuse.output.files (temp file + rename)."""
 
 from __future__ import annotations
 
 from pathlib import Path
 from typing import Callable
 
-from ..atomic import atomic_path
+from sleepfuse.output.files import atomic_path
 
 
 def write_atomic(path: str | Path, write: Callable[[Path], None]) -> Path:

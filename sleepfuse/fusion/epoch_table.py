@@ -13,8 +13,8 @@ import math
 import numpy as np
 import pandas as pd
 
-from ..config import StudyConfig
-from ..qc import QCLog
+from sleepfuse.model.config import StudyConfig
+from sleepfuse.model.qc import QCLog
 from ..scoring.nights import ScoredParticipant
 from .epochs import best_clock_offset, common_grid, epoch_agreement, night_agreement
 

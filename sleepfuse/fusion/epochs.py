@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from sleepfuse.stages import Stage
+from sleepfuse.model.stages import Stage
 
 _NAN = float("nan")
 # Stage codes as plain ints: numpy compares an int8 array with a Python int several times faster than
@@ -100,7 +100,7 @@ def _grid_parts(psg_start, psg_epoch_s, psg_codes, act_start, act_epoch_s, act_s
             f"(got {psg_start} and {act_start})"
         ) from exc
     mid = lag + (np.arange(codes.size) + 0.5) * float(psg_epoch_s)
-    psg_sleep = (codes >= _N1) & (codes <= _SLEEP)  # sleepfuse.stages.is_sleep (tested equal)
+    psg_sleep = (codes >= _N1) & (codes <= _SLEEP)  # sleepfuse.model.stages.is_sleep (tested equal)
     scored = psg_sleep | (codes == _WAKE)
     if window is not None:
         lo, hi = (pd.Timestamp(t) for t in window)

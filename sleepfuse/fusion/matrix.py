@@ -7,7 +7,7 @@ import math
 import numpy as np
 import pandas as pd
 
-from ..definitions import PARAMETERS, SOURCE_NAMES, WINDOW_NOTE
+from sleepfuse.model.definitions import PARAMETERS, SOURCE_NAMES, WINDOW_NOTE
 from ..scoring.nights import SOURCE_PARAMETERS
 from ..scoring.opportunity import MARKER_RULE
 from ..scoring.rest_interval import REST_INTERVAL_RULE

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from ..definitions import PAIRS, PARAMETERS, pair_name
+from sleepfuse.model.definitions import PAIRS, PARAMETERS, pair_name
 from ..scoring.nights import SOURCE_PARAMETERS
 from .agreement import AGREEMENT_COLUMNS, agreement
 

@@ -17,8 +17,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..errors import ReadError
-from ..records import Problem
+from sleepfuse.model.errors import ReadError
+from sleepfuse.model.records import Problem
 
 DELIMITERS = (",", ";", "\t")
 MAX_DETAILED = 20  # problems of one kind listed one by one; the rest are summarised

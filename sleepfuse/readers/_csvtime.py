@@ -13,8 +13,8 @@ import datetime as dt
 import numpy as np
 import pandas as pd
 
-from ..records import Problem
-from ..timeutil import zone
+from sleepfuse.model.records import Problem
+from sleepfuse.model.clock import zone
 from ._csvtext import line_phrase
 
 _US = 1_000_000  # microseconds per second; instants are int64 µs since 1970 (UTC)

@@ -19,7 +19,7 @@ import re
 from dataclasses import dataclass
 from pathlib import Path
 
-from ..errors import ReadError
+from sleepfuse.model.errors import ReadError
 
 ANNOTATION_LABEL = "EDF Annotations"
 _INT = re.compile(r"^[+-]?\d+$")

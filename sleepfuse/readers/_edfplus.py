@@ -26,7 +26,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import ReadError
+from sleepfuse.model.errors import ReadError
 
 # The header and the TAL parsers, re-exported: every name is importable from _edfplus as before.
 from ._edfheader import ANNOTATION_LABEL, EdfHeader, SignalHeader, patient_tokens, read_header  # noqa: F401

@@ -10,8 +10,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..errors import ReadError
-from ..stages import STAGE_DTYPE, Stage
+from sleepfuse.model.errors import ReadError
+from sleepfuse.model.stages import STAGE_DTYPE, Stage
 
 
 def find_hypnogram_signal(path, header, signal_label: str) -> int | None:

@@ -16,9 +16,9 @@ import math
 
 import numpy as np
 
-from ..errors import ReadError
-from ..records import Problem
-from ..stages import STAGE_DTYPE, Stage
+from sleepfuse.model.errors import ReadError
+from sleepfuse.model.records import Problem
+from sleepfuse.model.stages import STAGE_DTYPE, Stage
 from ._edftimes import MAX_RECORDING_DAYS, _seconds
 from .stage_labels import TARGET_CODES, is_event_text, is_stage_like, lights_marker, normalise_label
 

@@ -21,8 +21,8 @@ from zoneinfo import ZoneInfo
 import numpy as np
 import pandas as pd
 
-from ..records import Problem
-from ..timeutil import localize, pandas_tzinfo
+from sleepfuse.model.records import Problem
+from sleepfuse.model.clock import localize, pandas_tzinfo
 
 MAX_RECORDING_DAYS = 14  # longer stage series are taken for a damaged file
 

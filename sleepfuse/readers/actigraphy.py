@@ -15,9 +15,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..errors import ReadError
-from ..records import ActigraphyRecord, Problem
-from ..timeutil import zone
+from sleepfuse.model.errors import ReadError
+from sleepfuse.model.records import ActigraphyRecord, Problem
+from sleepfuse.model.clock import zone
 from ._csvtext import (
     BOM,
     MAX_DETAILED,

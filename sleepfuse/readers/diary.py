@@ -17,10 +17,10 @@ from zoneinfo import ZoneInfo
 
 import pandas as pd
 
-from ..config import DIARY_COLUMN_KEYS
-from ..errors import ReadError
-from ..records import Diary, DiaryEntry, Problem
-from ..timeutil import NOON, clock_on_night, localize, pandas_tzinfo, zone
+from sleepfuse.model.config import DIARY_COLUMN_KEYS
+from sleepfuse.model.errors import ReadError
+from sleepfuse.model.records import Diary, DiaryEntry, Problem
+from sleepfuse.model.clock import NOON, clock_on_night, localize, pandas_tzinfo, zone
 from ._csvtext import blank_rows, find_column, missing_column_message, ragged_problems, read_table
 
 DIARY_DEFAULT_COLUMNS = {k: k for k in DIARY_COLUMN_KEYS}

@@ -22,9 +22,9 @@ import os
 import re
 from pathlib import Path
 
-from ..errors import ConfigError, ReadError
-from ..records import Hypnogram, Problem
-from ..timeutil import zone
+from sleepfuse.model.errors import ConfigError, ReadError
+from sleepfuse.model.records import Hypnogram, Problem
+from sleepfuse.model.clock import zone
 from . import _edfplus as edfplus
 from ._edfsignal import find_hypnogram_signal, signal_stages
 from ._edfstages import _classify, _max_epochs, _stage_grid

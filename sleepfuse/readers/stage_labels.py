@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import re
 
-from ..stages import Stage
+from sleepfuse.model.stages import Stage
 
 # Target names used in study.toml ([psg] labels / signal_codes) -> Stage code.
 TARGET_CODES: dict[str, int] = {
@@ -108,7 +108,7 @@ def merged_labels(extra: dict[str, str] | None) -> dict[str, str]:
 
 
 def stage_code(label: str, extra: dict[str, str] | None = None) -> int | None:
-    """Stage code (sleepfuse.stages.Stage) of an annotation text, or None for an unknown label."""
+    """Stage code (sleepfuse.model.stages.Stage) of an annotation text, or None for an unknown label."""
     target = merged_labels(extra).get(normalise_label(label))
     return None if target is None else TARGET_CODES[target]
 

@@ -43,7 +43,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 if TYPE_CHECKING:  # pragma: no cover
-    from ..config import ActigraphySection
+    from sleepfuse.model.config import ActigraphySection
 
 # set name -> (P, (w-4, w-3, w-2, w-1, w0, w+1, w+2)); Cole et al. 1992, 1-min epochs.
 COLE_KRIPKE_COEFFICIENTS: dict[str, tuple[float, tuple[float, ...]]] = {

@@ -11,8 +11,8 @@ from __future__ import annotations
 
 import math
 
-from ..records import DiaryEntry
-from ..timeutil import elapsed_min
+from sleepfuse.model.records import DiaryEntry
+from sleepfuse.model.clock import elapsed_min
 
 DIARY_PARAMETERS = (
     "tib_min",

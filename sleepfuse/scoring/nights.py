@@ -16,11 +16,11 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..config import StudyConfig
-from ..qc import QCLog
-from ..records import ActigraphyRecord, DiaryEntry, Hypnogram
-from ..stages import Stage
-from ..study import ParticipantRecords, actigraphy_nights, hypnogram_night
+from sleepfuse.model.config import StudyConfig
+from sleepfuse.model.qc import QCLog
+from sleepfuse.model.records import ActigraphyRecord, DiaryEntry, Hypnogram
+from sleepfuse.model.stages import Stage
+from sleepfuse.model.records import ParticipantRecords, actigraphy_nights, hypnogram_night
 from .actigraphy import epochs_to_minutes, score_sleep_wake
 from .diary import DIARY_PARAMETERS, DiaryRowRejected, diary_parameters
 from .nonwear import choi_nonwear

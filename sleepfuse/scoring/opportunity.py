@@ -14,9 +14,9 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from ..records import DiaryEntry, Hypnogram
-from ..stages import Stage
-from ..timeutil import noon_of
+from sleepfuse.model.records import DiaryEntry, Hypnogram
+from sleepfuse.model.stages import Stage
+from sleepfuse.model.clock import noon_of
 from .rest_interval import REST_INTERVAL_RULE, rest_interval
 
 RULE_LIGHTS = "lights off/on markers"

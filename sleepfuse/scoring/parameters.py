@@ -15,7 +15,7 @@ import math
 
 import numpy as np
 
-from ..stages import Stage
+from sleepfuse.model.stages import Stage
 
 COMMON_PARAMETERS = (
     "tib_min",
@@ -90,7 +90,7 @@ def _check_codes(codes: np.ndarray) -> np.ndarray:
         raise ValueError(f"stage codes must be a 1-D array, got shape {codes.shape}")
     if codes.size and not np.issubdtype(codes.dtype, np.integer):
         if not np.all(np.isfinite(codes)) or np.any(codes != np.round(codes)):
-            raise ValueError("stage codes must be integers (sleepfuse.stages.Stage values)")
+            raise ValueError("stage codes must be integers (sleepfuse.model.stages.Stage values)")
     codes = codes.astype(np.int16, copy=False)
     if _CODES_CONTIGUOUS and (codes.size == 0 or (int(codes.min()) >= _CODE_MIN and int(codes.max()) <= _CODE_MAX)):
         return codes
@@ -98,7 +98,7 @@ def _check_codes(codes: np.ndarray) -> np.ndarray:
     if bad.any():
         raise ValueError(
             f"unknown stage code(s) {sorted(set(codes[bad].tolist()))}; "
-            f"allowed: {sorted(_VALID_CODES.tolist())} (sleepfuse.stages.Stage)"
+            f"allowed: {sorted(_VALID_CODES.tolist())} (sleepfuse.model.stages.Stage)"
         )
     return codes
 

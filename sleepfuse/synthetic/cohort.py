@@ -19,7 +19,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..atomic import write_text
+from sleepfuse.output.files import write_text
 from .edf_writer import Signal, write_edf_plus
 
 # internal stage codes of the simulation

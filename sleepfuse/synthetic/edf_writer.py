@@ -17,7 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..atomic import write_bytes
+from sleepfuse.output.files import write_bytes
 
 MONTHS = ("JAN", "FEB", "MAR", "APR", "MAY", "JUN", "JUL", "AUG", "SEP", "OCT", "NOV", "DEC")
 

@@ -11,8 +11,8 @@ from pathlib import Path
 from textual.app import App
 from textual.binding import Binding
 
-from ..pipeline import StudyResult
-from ..workspace import PairChoice, Workspace
+from sleepfuse.run.participant import StudyResult
+from sleepfuse.run.session import PairChoice, Workspace
 from .screens.agreement import AgreementScreen
 from .screens.disagreements import DisagreementScreen
 from .screens.explore import ExploreScreen
@@ -94,8 +94,8 @@ def create_app(study: str | Path, *, preloaded: StudyResult | Workspace | None =
     workspace = Workspace.from_result(study, preloaded) if isinstance(preloaded, StudyResult) else preloaded
     name = ""
     if workspace is None:
-        from ..config import load_config
-        from ..errors import ConfigError
+        from sleepfuse.model.config import load_config
+        from sleepfuse.model.errors import ConfigError
 
         try:
             name = load_config(study).study.name

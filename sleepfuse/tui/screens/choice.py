@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from rich.text import Text
 
-from ...definitions import PARAMETERS
-from ...workspace import PairChoice
+from sleepfuse.model.definitions import PARAMETERS
+from sleepfuse.run.session import PairChoice
 
 
 def choice_line(choice: PairChoice, extra: str = "") -> Text:

@@ -15,7 +15,7 @@ from textual.binding import Binding
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static
 
-from ...definitions import PARAMETERS
+from sleepfuse.model.definitions import PARAMETERS
 from ..widgets.appbar import AppBar
 from ..widgets.numbers import fmt
 from .choice import choice_line

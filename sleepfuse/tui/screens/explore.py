@@ -177,7 +177,7 @@ class ExploreScreen(Screen):
     @work(thread=True, exclusive=True, exit_on_error=False)
     def fit(self, run: int, matrix, columns: str | None, blocks: str | None, kmax: int) -> None:
         """The clustering preview off the interface thread; posts ClustersFitted or ClustersFailed."""
-        from ...errors import ConfigError
+        from sleepfuse.model.errors import ConfigError
         from ...explore.selection import explore
 
         try:

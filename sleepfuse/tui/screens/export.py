@@ -60,7 +60,7 @@ class ExportScreen(ModalScreen[list[Path] | None]):
 
     @work(thread=True, exclusive=True, exit_on_error=False)
     def run_export(self, study: Path, out: Path, fmt: str) -> None:
-        from ...batch import BatchOptions, run_batch
+        from sleepfuse.run.batch import BatchOptions, run_batch
 
         def progress(participant: str, i: int, n: int) -> None:
             self.post_message(ExportProgressed(participant, i, n))

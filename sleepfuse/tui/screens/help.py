@@ -9,7 +9,7 @@ from textual.containers import VerticalScroll
 from textual.screen import Screen
 from textual.widgets import Footer, Static
 
-from ... import RESEARCH_CAUTION
+from sleepfuse import RESEARCH_CAUTION
 from ..widgets.appbar import AppBar
 from . import tcss
 

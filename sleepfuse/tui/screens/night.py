@@ -17,8 +17,8 @@ from textual.binding import Binding
 from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Static
 
-from ...definitions import PAIRS, pair_name
-from ...workspace import SOURCES
+from sleepfuse.model.definitions import PAIRS, pair_name
+from sleepfuse.run.session import SOURCES
 from ..messages import NightScored
 from ..widgets.appbar import AppBar
 from ..widgets.numbers import fmt

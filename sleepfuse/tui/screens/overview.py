@@ -19,8 +19,8 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, ProgressBar, Static
 from textual.worker import get_current_worker
 
-from ...definitions import SOURCE_NAMES
-from ...workspace import SOURCES, StudyLoader, Workspace, night_cells
+from sleepfuse.model.definitions import SOURCE_NAMES
+from sleepfuse.run.session import SOURCES, StudyLoader, Workspace, night_cells
 from ..messages import ParticipantsScored, StudyFailed, StudyLoaded, StudyPlanned
 from ..widgets.appbar import AppBar
 from . import tcss

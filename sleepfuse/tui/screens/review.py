@@ -15,7 +15,7 @@ from textual.screen import ModalScreen
 from rich.text import Text
 from textual.widgets import Input, Label, Static
 
-from ...definitions import SOURCE_NAMES
+from sleepfuse.model.definitions import SOURCE_NAMES
 from . import tcss
 
 

@@ -17,7 +17,7 @@ import pandas as pd
 from rich.text import Text
 from textual.widget import Widget
 
-from ...stages import Stage
+from sleepfuse.model.stages import Stage
 
 NS_PER_S = 1_000_000_000
 GUTTER = 7

@@ -7,9 +7,9 @@ grow with the study beyond the tables themselves. Every file is written
 atomically; provenance.json is written last.
 
 Scored participants are kept in the study's incremental cache
-(``sleepfuse.cache``): a later run recomputes only participants whose files,
+(``sleepfuse.run.cache``): a later run recomputes only participants whose files,
 configuration or sleepfuse version changed. ``scheduler`` sends the
-per-participant work to a Dask cluster (``sleepfuse.distributed``).
+per-participant work to a Dask cluster (``sleepfuse.run.distributed``).
 """
 
 from __future__ import annotations
@@ -19,44 +19,31 @@ import json
 import math
 import platform
 import sys
-from concurrent.futures import ProcessPoolExecutor, ThreadPoolExecutor, as_completed
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
 
 import numpy as np
 import pandas as pd
 
-from . import RESEARCH_CAUTION, __version__
-from ._alloc import tune_allocator
-from .atomic import atomic_path, write_chunks, write_text
-from .cache import library_versions
-from .config import StudyConfig, load_config
-from .csvtext import csv_chunks
-from .fusion.epoch_table import epoch_rows, epoch_table
-from .fusion.matrix import codebook, participant_matrix
-from .fusion.pairs import agreement_table, paired_nights
-from .pipeline import ParticipantJob, plan_jobs, process_participant
-from .qc import QCEntry, QCLog
-from .review import REVIEW_FILE, Decision, apply_decisions, load_decisions
-from .scoring.actigraphy import COLE_KRIPKE_COEFFICIENTS
-from .scoring.nights import night_table, rhythm_table
-from .study import sha256_of
+from sleepfuse import RESEARCH_CAUTION, __version__
+from sleepfuse.run._alloc import tune_allocator
+from sleepfuse.output.files import atomic_path, write_chunks, write_text
+from sleepfuse.run.cache import library_versions, run_cached
+from sleepfuse.model.config import StudyConfig, load_config
+from sleepfuse.output.csvtext import csv_chunks
+from sleepfuse.fusion.epoch_table import epoch_table
+from sleepfuse.fusion.matrix import codebook, participant_matrix
+from sleepfuse.fusion.pairs import agreement_table, paired_nights
+from sleepfuse.run.engine import ParticipantOutcome, input_record, process_pool, rel_path
+from sleepfuse.run.participant import plan_jobs
+from sleepfuse.model.qc import QCLog
+from sleepfuse.study.review import REVIEW_FILE, Decision, apply_decisions, load_decisions
+from sleepfuse.scoring.actigraphy import COLE_KRIPKE_COEFFICIENTS
+from sleepfuse.scoring.nights import night_table, rhythm_table
 
 OUTPUT_TABLES = ("nights", "agreement", "epochs_agreement", "matrix", "codebook", "qc")
 FORMATS = ("csv", "parquet")
-
-
-@dataclass
-class ParticipantOutcome:
-    """What a worker sends back for one participant: small tables, never raw epoch arrays."""
-
-    participant: str
-    rows: list[dict]
-    rhythm: dict
-    epoch_rows: list[dict]
-    qc: list[QCEntry]
-    inputs: list[dict] = field(default_factory=list)
 
 
 @dataclass
@@ -82,146 +69,10 @@ class BatchResult:
     n_from_cache: int = 0
 
 
-def run_participant(config: StudyConfig, job: ParticipantJob, inputs: list[dict] | None = None) -> ParticipantOutcome:
-    """Read, score and compare the instruments of one participant (runs in a worker).
-
-    ``inputs`` are the files' provenance records if already made (checksums
-    are computed once, by the caller); otherwise they are made here.
-    """
-    tune_allocator()  # once per process (forked workers inherit it; Dask workers set it here)
-    scored, entries = process_participant(config, job)
-    qc = QCLog(list(entries))
-    try:
-        erows = epoch_rows(config, scored, qc)
-    except Exception as exc:  # epoch agreement is optional; never lose the participant for it
-        qc.error(f"epoch-by-epoch agreement not computed: {type(exc).__name__}: {exc}", participant=job.participant)
-        erows = []
-    if inputs is None:
-        inputs = job_inputs(config, job, scored.digests)
-    return ParticipantOutcome(job.participant, scored.rows, scored.rhythm, erows, qc.entries, list(inputs))
-
-
-def job_inputs(config: StudyConfig, job: ParticipantJob, digests: dict[Path, str] | None = None) -> list[dict]:
-    """Provenance record (relative path, source, SHA-256, size, time) of each of a job's files.
-
-    ``digests``: SHA-256 of files already hashed by their reader (of the very bytes it read)."""
-    digests = digests or {}
-    return [_input_record(config, p, source, digests.get(p)) for source, paths in job.files.items() for p in paths]
-
-
-def failed_outcome(config: StudyConfig, job: ParticipantJob, exc: BaseException,
-                   inputs: list[dict] | None = None) -> ParticipantOutcome:
-    """A participant whose worker crashed: one QC error, no rows (never cached); its files still in provenance."""
-    entry = QCEntry("", job.participant, "", "error", f"participant not processed: {type(exc).__name__}: {exc}")
-    if inputs is None:
-        inputs = job_inputs(config, job)
-    return ParticipantOutcome(job.participant, [], {}, [], [entry], list(inputs))
-
-
-def _input_record(config: StudyConfig, path: Path, source: str, digest: str | None = None) -> dict:
-    try:
-        stat = path.stat()
-        digest = digest or sha256_of(path)
-    except OSError as exc:
-        return {"file": _rel(config, path), "source": source, "sha256": "", "error": str(exc)}
-    return {
-        "file": _rel(config, path),
-        "source": source,
-        "sha256": digest,
-        "bytes": stat.st_size,
-        "modified": dt.datetime.fromtimestamp(stat.st_mtime, dt.timezone.utc).isoformat(),
-    }
-
-
-def _rel(config: StudyConfig, path: Path) -> str:
-    try:
-        return str(Path(path).relative_to(config.root))
-    except ValueError:
-        return str(path)
-
-
-def _run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
-              progress: Callable[[str, int, int], None] | None, *,
-              inputs: list[list[dict]] | None = None, scheduler: str | None = None,
-              on_done: Callable[[int, ParticipantOutcome], None] | None = None,
-              done_before: int = 0, total: int | None = None,
-              pool: ProcessPoolExecutor | None = None) -> list[ParticipantOutcome]:
-    """Run ``run_participant`` for every job: here, in a process pool or on a Dask cluster.
-
-    Outcomes come back sorted by participant whichever way they ran, so the
-    tables are the same. ``on_done(index, outcome)`` is called as each one
-    arrives (the cache stores it then); progress counts from ``done_before``.
-    """
-    outcomes: list[ParticipantOutcome] = []
-    n = len(jobs)
-    total = n + done_before if total is None else total
-    inputs = inputs if inputs is not None else [None] * n  # type: ignore[list-item]
-
-    def finish(k: int, outcome: ParticipantOutcome, i: int) -> None:
-        outcomes.append(outcome)
-        if on_done:
-            on_done(k, outcome)
-        if progress:
-            progress(jobs[k].participant, done_before + i, total)
-
-    if scheduler:
-        from .distributed import run_jobs_on_dask
-
-        run_jobs_on_dask(config, jobs, inputs, scheduler, workers, finish)
-    elif workers <= 1 or n <= 1:
-        for k, job in enumerate(jobs):
-            if progress:
-                progress(job.participant, done_before + k, total)
-            finish(k, run_participant(config, job, inputs[k]), k + 1)
-    else:
-        own = pool is None  # a pool of its own, or the caller's (batch keeps it for writing the tables)
-        if own:
-            _preload()
-            pool = ProcessPoolExecutor(max_workers=min(workers, n))
-        try:
-            futures = {pool.submit(run_participant, config, job, inputs[k]): k for k, job in enumerate(jobs)}
-            for i, fut in enumerate(as_completed(futures)):
-                k = futures[fut]
-                try:
-                    outcome = fut.result()
-                except Exception as exc:  # a crashed worker loses one participant, not the study
-                    outcome = failed_outcome(config, jobs[k], exc, inputs[k])
-                finish(k, outcome, i + 1)
-        finally:
-            if own:
-                pool.shutdown(wait=True)
-    if progress:
-        progress("", done_before + n, total)
-    return sorted(outcomes, key=lambda o: o.participant)
-
-
-def _process_pool(options: BatchOptions, n_jobs: int) -> ProcessPoolExecutor | None:
-    """The worker pool of a run with --workers N > 1 and no Dask scheduler (None otherwise)."""
-    if options.scheduler or options.workers <= 1 or n_jobs <= 1:
-        return None
-    _preload()
-    return ProcessPoolExecutor(max_workers=min(options.workers, n_jobs))
-
-
-def _preload() -> None:
-    """Import what every worker needs before the pool forks, so each worker does not import it again."""
-    import pyarrow.csv  # noqa: F401
-
-    from .readers import actigraphy, diary, edf  # noqa: F401
-
-
-def hash_inputs(config: StudyConfig, jobs: list[ParticipantJob], workers: int = 2) -> list[list[dict]]:
-    """Provenance records (with SHA-256) of every job's files, hashed on a few threads (hashlib frees the GIL)."""
-    if len(jobs) <= 1:
-        return [job_inputs(config, j) for j in jobs]
-    with ThreadPoolExecutor(max_workers=max(2, min(8, workers))) as pool:
-        return list(pool.map(lambda j: job_inputs(config, j), jobs))
-
-
 def build_tables(config: StudyConfig, outcomes: list[ParticipantOutcome], qc: QCLog, options: BatchOptions,
                  decisions: list[Decision] = ()) -> dict[str, pd.DataFrame]:
     """All output tables from the participants' outcomes, review decisions honoured."""
-    from .scoring.nights import ScoredParticipant
+    from sleepfuse.scoring.nights import ScoredParticipant
 
     scored = [ScoredParticipant(o.participant, rows=o.rows, rhythm=o.rhythm) for o in outcomes]
     for o in outcomes:
@@ -279,8 +130,8 @@ def write_table(df: pd.DataFrame, path_base: Path, fmt: str) -> Path:
 
 def write_plots(tables: dict[str, pd.DataFrame], out: Path) -> list[Path]:
     """One Bland–Altman figure (PNG + SVG) per parameter and pair into out/plots/."""
-    from .definitions import label_of
-    from .fusion.plots import bland_altman_figure, save_figure
+    from sleepfuse.model.definitions import label_of
+    from sleepfuse.output.figures import bland_altman_figure, save_figure
 
     nights = tables["nights"]
     written: list[Path] = []
@@ -314,14 +165,13 @@ def run_batch(
     qc = QCLog()
     decisions = load_decisions(study)
     jobs, files = plan_jobs(config, qc)
-    from .cache import run_cached
-
     out = Path(options.out)
     # The workers are gone before the tables are built: their memory is never held beside the tables'
     # (writing nights.csv in a worker meanwhile saved ~0.05 s but raised the peak by two idle workers).
-    pool = _process_pool(options, len(jobs))
+    pool = process_pool(options.workers, options.scheduler, len(jobs))
     try:
-        outcomes, cache_report = run_cached(config, jobs, options, qc, progress, pool=pool)
+        outcomes, cache_report = run_cached(config, jobs, qc, progress, use_cache=options.cache,
+                                             workers=options.workers, scheduler=options.scheduler, pool=pool)
     finally:
         if pool is not None:
             pool.shutdown(wait=True)
@@ -333,7 +183,7 @@ def run_batch(
     written = [write_table(tables[name], out / name, options.format) for name in OUTPUT_TABLES]
     inputs = [i for o in outcomes for i in o.inputs]
     seen = {i["file"] for i in inputs}
-    inputs += [_input_record(config, p, "diary") for p in files if _rel(config, p) not in seen]
+    inputs += [input_record(config, p, "diary") for p in files if rel_path(config, p) not in seen]
     if options.plots:
         written += write_plots(tables, out)
     nights = tables["nights"]

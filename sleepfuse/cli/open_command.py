@@ -6,12 +6,11 @@ import argparse
 import sys
 from pathlib import Path
 
-from ..cli import study_dir
+from sleepfuse.cli.args import EXIT_USAGE, study_dir
 
 NO_TTY_MESSAGE = (
     "sleepfuse open needs an interactive terminal; for headless use run: sleepfuse batch STUDY --out DIR"
 )
-EXIT_USAGE = 2
 
 
 def add_open_parser(subparsers) -> argparse.ArgumentParser:
@@ -35,15 +34,15 @@ def run_open(args: argparse.Namespace) -> int:
     if not (sys.stdin.isatty() and sys.stdout.isatty()):
         print(NO_TTY_MESSAGE, file=sys.stderr)
         return EXIT_USAGE
-    from ..config import load_config
-    from ..errors import ConfigError
+    from sleepfuse.model.config import load_config
+    from sleepfuse.model.errors import ConfigError
 
     try:
         load_config(args.study)
     except ConfigError as exc:
         print(f"sleepfuse: configuration error: {exc}", file=sys.stderr)
         return EXIT_USAGE
-    from .app import create_app
+    from sleepfuse.tui.app import create_app
 
     app = create_app(args.study, export_dir=getattr(args, "export_dir", None))
     app.run()

@@ -6,7 +6,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from .cli import study_dir
+from sleepfuse.cli.args import study_dir
 
 CONSOLE_WARNINGS = 30  # batch prints every QC error and this many warnings; qc.csv holds them all
 
@@ -24,17 +24,17 @@ def register(sub) -> None:
     p.set_defaults(func=run_score)
     register_batch(sub)
 
-    from .explore.cli import add_explore_parser
-    from .tui.cli import add_open_parser
+    from sleepfuse.explore.cli import add_explore_parser
+    from sleepfuse.cli.open_command import add_open_parser
 
     add_explore_parser(sub)
     add_open_parser(sub)
 
 
 def run_score(args: argparse.Namespace) -> int:
-    from .atomic import write_text
-    from .pipeline import run_study
-    from .progress import participant_progress
+    from sleepfuse.output.files import write_text
+    from sleepfuse.run.participant import run_study
+    from sleepfuse.cli.progress import participant_progress
 
     with participant_progress() as update:
         result = run_study(args.study, progress=update, keep_detail=False)
@@ -93,10 +93,10 @@ def _positive_int(value: str) -> int:
 def run_batch_command(args: argparse.Namespace) -> int:
     import pandas as pd
 
-    from .batch import BatchOptions, run_batch
-    from .progress import participant_progress
+    from sleepfuse.run.batch import BatchOptions, run_batch
+    from sleepfuse.cli.progress import participant_progress
 
-    from .distributed import DaskUnavailable
+    from sleepfuse.run.distributed import DaskUnavailable
 
     options = BatchOptions(out=args.out, format=args.format, plots=args.plots, workers=args.workers,
                            zscore=args.zscore, min_nights=args.min_nights, cache=args.cache,

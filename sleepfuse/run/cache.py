@@ -23,13 +23,13 @@ from typing import TYPE_CHECKING, Callable, Iterable
 
 import numpy as np
 
-from . import __version__
-from .qc import QCEntry, QCLog
+from sleepfuse import __version__
+from sleepfuse.model.qc import QCEntry, QCLog
+from sleepfuse.run.engine import ParticipantOutcome, hash_inputs, rel_path, run_jobs
 
 if TYPE_CHECKING:  # pragma: no cover
-    from .batch import BatchOptions, ParticipantOutcome
-    from .config import StudyConfig
-    from .pipeline import ParticipantJob
+    from sleepfuse.model.config import StudyConfig
+    from sleepfuse.run.participant import ParticipantJob
 
 CACHE_DIR = ".sleepfuse-cache"
 CACHE_FILE = "outcomes.sqlite"
@@ -126,8 +126,6 @@ def encode_outcome(outcome: "ParticipantOutcome") -> bytes:
 
 
 def decode_outcome(blob: bytes) -> "ParticipantOutcome":
-    from .batch import ParticipantOutcome
-
     d = json.loads(blob.decode("utf-8"))
     if "rows" in d:
         rows = d["rows"]
@@ -270,23 +268,22 @@ class CacheReport:
     reason: str = ""  # why the cache was not used
 
 
-def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", options: "BatchOptions", qc: QCLog,
-               progress: Callable[[str, int, int], None] | None = None,
+def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", qc: QCLog,
+               progress: Callable[[str, int, int], None] | None = None, *,
+               use_cache: bool = True, workers: int = 1, scheduler: str | None = None,
                pool=None) -> "tuple[list[ParticipantOutcome], CacheReport]":
     """Outcomes of every job: unchanged participants from the cache, the rest computed and stored
     (in ``pool``, a process pool, when given)."""
-    from .batch import _rel, _run_jobs, hash_inputs
-
-    report = CacheReport(used=False, reason="--no-cache" if not options.cache else "")
+    report = CacheReport(used=False, reason="--no-cache" if not use_cache else "")
     cache = None
-    if options.cache:
+    if use_cache:
         try:
             cache = OutcomeCache.open(config.root)
         except CacheUnavailable as exc:
             report.reason = str(exc)
             qc.info(f"incremental cache not used: {exc}; every participant computed", file=CACHE_DIR)
     if cache is None:  # each worker checksums its own participant's files (in parallel, no cache key needed)
-        outcomes = _run_jobs(config, jobs, options.workers, progress, scheduler=options.scheduler, pool=pool)
+        outcomes = run_jobs(config, jobs, workers, progress, scheduler=scheduler, pool=pool)
         report.recomputed = len(outcomes)
         return outcomes, report
 
@@ -295,10 +292,10 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", options: "Ba
     stored = cache.participants()
     known = [k for k, job in enumerate(jobs) if job.participant in stored]
     inputs: list[list[dict] | None] = [None] * len(jobs)
-    for k, found in zip(known, hash_inputs(config, [jobs[k] for k in known], options.workers)):
+    for k, found in zip(known, hash_inputs(config, [jobs[k] for k in known], workers)):
         inputs[k] = found
 
-    report.used, report.path = True, _rel(config, cache.path)
+    report.used, report.path = True, rel_path(config, cache.path)
     for note in cache.notes:
         qc.info(note, file=report.path)
     cfg, libs = config_fingerprint(config), library_versions()
@@ -340,8 +337,8 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", options: "Ba
             broken.append(f"{type(exc).__name__}: {exc}")
 
     try:
-        computed = _run_jobs(config, todo_jobs, options.workers, progress, inputs=[inputs[k] for k in todo],
-                             scheduler=options.scheduler, on_done=store, done_before=len(hits), total=len(jobs),
+        computed = run_jobs(config, todo_jobs, workers, progress, inputs=[inputs[k] for k in todo],
+                            scheduler=scheduler, on_done=store, done_before=len(hits), total=len(jobs),
                              pool=pool)
     finally:
         try:

@@ -13,12 +13,11 @@ from __future__ import annotations
 
 import logging
 import uuid
-from typing import TYPE_CHECKING, Callable
+from typing import TYPE_CHECKING, Any, Callable
 
 if TYPE_CHECKING:  # pragma: no cover
-    from .batch import ParticipantOutcome
-    from .config import StudyConfig
-    from .pipeline import ParticipantJob
+    from sleepfuse.model.config import StudyConfig
+    from sleepfuse.run.participant import ParticipantJob
 
 LOCAL = "local"
 CONNECT_TIMEOUT = "30s"  # how long to wait for a remote scheduler before giving up
@@ -38,11 +37,9 @@ def _import_distributed():
     return Client, LocalCluster, as_completed
 
 
-def _run_one(job: "ParticipantJob", inputs: list[dict] | None, config: "StudyConfig") -> "ParticipantOutcome":
+def _run_task(job: "ParticipantJob", inputs: list[dict] | None, run_one: Callable[..., Any], config: "StudyConfig"):
     """The task run on a Dask worker: one participant, read and scored there."""
-    from .batch import run_participant
-
-    return run_participant(config, job, inputs)
+    return run_one(config, job, inputs)
 
 
 def connect(scheduler: str, workers: int):
@@ -68,15 +65,17 @@ def run_jobs_on_dask(
     inputs: list[list[dict] | None],
     scheduler: str,
     workers: int,
-    finish: Callable[[int, "ParticipantOutcome", int], None],
+    finish: Callable[[int, Any, int], None],
+    *,
+    run_one: Callable[..., Any],
+    on_error: Callable[..., Any],
 ) -> None:
     """Run every job as a Dask task; ``finish(index, outcome, n_done)`` is called as each one arrives.
 
     A task that fails (a lost worker, an exception outside the pipeline's own
-    handling) becomes a QC error for that participant, never a stopped batch.
+    handling) becomes a QC error for that participant, never a stopped batch: ``run_one(config, job,
+    inputs)`` is the task, ``on_error(config, job, exc, inputs)`` the outcome of one that failed.
     """
-    from .batch import failed_outcome
-
     if not jobs:
         return
     _, _, as_completed = _import_distributed()
@@ -84,7 +83,7 @@ def run_jobs_on_dask(
     try:
         cfg = client.scatter(config, broadcast=True)
         run = uuid.uuid4().hex[:12]  # task keys unique on a scheduler shared by several runs
-        futures = client.map(_run_one, jobs, inputs, config=cfg, pure=False,
+        futures = client.map(_run_task, jobs, inputs, run_one=run_one, config=cfg, pure=False,
                              key=[f"sleepfuse-{run}-{i}-{job.participant}" for i, job in enumerate(jobs)])
         index = {f.key: k for k, f in enumerate(futures)}
         for n_done, fut in enumerate(as_completed(futures), start=1):
@@ -92,7 +91,7 @@ def run_jobs_on_dask(
             try:
                 outcome = fut.result()
             except Exception as exc:  # noqa: BLE001 - one participant lost, not the study
-                outcome = failed_outcome(config, jobs[k], exc, inputs[k])
+                outcome = on_error(config, jobs[k], exc, inputs[k])
             fut.release()
             finish(k, outcome, n_done)
     finally:

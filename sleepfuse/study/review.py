@@ -16,8 +16,8 @@ from pathlib import Path
 
 import pandas as pd
 
-from .atomic import write_text
-from .errors import ConfigError
+from sleepfuse.output.files import write_text
+from sleepfuse.model.errors import ConfigError
 
 REVIEW_FILE = "sleepfuse-review.csv"
 REVIEW_COLUMNS = ["participant", "night", "source", "decision", "reason", "decided_at"]

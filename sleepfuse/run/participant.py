@@ -13,10 +13,10 @@ from typing import Callable, Iterable
 
 import pandas as pd
 
-from .config import StudyConfig, load_config
-from .qc import QCEntry, QCLog
-from .scoring.nights import ScoredParticipant, night_table, rhythm_table, score_participant
-from .study import ParticipantJob, load_participant, plan_jobs  # noqa: F401  (re-exported)
+from sleepfuse.model.config import StudyConfig, load_config
+from sleepfuse.model.qc import QCEntry, QCLog
+from sleepfuse.scoring.nights import ScoredParticipant, night_table, rhythm_table, score_participant
+from sleepfuse.study.folder import ParticipantJob, load_participant, plan_jobs  # noqa: F401  (re-exported)
 
 
 @dataclass
@@ -67,7 +67,7 @@ def run_study(
 
 def assemble(config: StudyConfig, scored: Iterable[ScoredParticipant], qc: QCLog, files: list[Path],
              *, keep_detail: bool = True) -> StudyResult:
-    from .review import apply_decisions, load_decisions
+    from sleepfuse.study.review import apply_decisions, load_decisions
 
     scored = list(scored)
     return StudyResult(

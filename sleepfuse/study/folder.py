@@ -8,43 +8,26 @@ from __future__ import annotations
 
 import datetime as dt
 import hashlib
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable, Iterable
 
-import pandas as pd
 
-from .config import StudyConfig, load_config
-from .errors import ReadError
-from .qc import QCLog
-from .records import ActigraphyRecord, DiaryEntry, Hypnogram, Problem
-from .timeutil import night_of
+from sleepfuse.model.config import StudyConfig, load_config
+from sleepfuse.model.errors import ReadError
+from sleepfuse.model.qc import QCLog
+from sleepfuse.model.records import (  # noqa: F401  (SOURCES and the night rules re-exported)
+    SOURCES,
+    ActigraphyRecord,
+    DiaryEntry,
+    Hypnogram,
+    ParticipantRecords,
+    Problem,
+    actigraphy_nights,
+    hypnogram_night,
+)
+from sleepfuse.model.clock import night_of
 
-SOURCES = ("psg", "actigraphy", "diary")
-
-
-@dataclass
-class ParticipantRecords:
-    """Everything read for one participant, with the nights each instrument covers."""
-
-    participant: str
-    hypnograms: list[Hypnogram] = field(default_factory=list)
-    actigraphy: list[ActigraphyRecord] = field(default_factory=list)
-    diary: list[DiaryEntry] = field(default_factory=list)
-    files: list[Path] = field(default_factory=list)
-    digests: dict[Path, str] = field(default_factory=dict)  # SHA-256 of files whose reader hashed what it read
-
-    def nights(self, source: str) -> list[dt.date]:
-        """Sorted nights on which ``source`` has data (noon-to-noon rule)."""
-        if source == "psg":
-            found = {hypnogram_night(h) for h in self.hypnograms}
-        elif source == "actigraphy":
-            found = {n for rec in self.actigraphy for n in actigraphy_nights(rec)}
-        elif source == "diary":
-            found = {e.night for e in self.diary}
-        else:
-            raise ValueError(f"unknown source {source!r}; allowed: {', '.join(SOURCES)}")
-        return sorted(found)
 
 
 @dataclass
@@ -66,20 +49,6 @@ class StudyFiles:
     by_participant: dict[str, dict[str, list[Path]]]
     combined_diaries: list[Path]  # diary files without a participant in their name
     all_files: list[Path]
-
-
-def hypnogram_night(h: Hypnogram) -> dt.date:
-    """A PSG recording's night: the night its sleep opportunity (or recording) begins."""
-    return night_of(h.lights_off if h.lights_off is not None else h.start)
-
-
-def actigraphy_nights(rec: ActigraphyRecord) -> list[dt.date]:
-    """Every night (noon-to-noon day) that an actigraphy record overlaps."""
-    if rec.n_epochs == 0:
-        return []
-    first = night_of(rec.start)
-    last = night_of(rec.end - pd.Timedelta(seconds=rec.epoch_s))
-    return [first + dt.timedelta(days=i) for i in range((last - first).days + 1)]
 
 
 def sha256_of(path: Path, chunk: int = 1 << 20) -> str:
@@ -148,7 +117,7 @@ def _report_problems(qc: QCLog, problems: Iterable[Problem], *, file: str, parti
 
 
 def read_hypnogram_file(config: StudyConfig, path: Path) -> Hypnogram:
-    from .readers.edf import read_hypnogram
+    from sleepfuse.readers.edf import read_hypnogram
 
     return read_hypnogram(
         path,
@@ -161,13 +130,13 @@ def read_hypnogram_file(config: StudyConfig, path: Path) -> Hypnogram:
 
 
 def read_actigraphy_file(config: StudyConfig, path: Path) -> ActigraphyRecord:
-    from .readers.actigraphy import read_actigraphy
+    from sleepfuse.readers.actigraphy import read_actigraphy
 
     return read_actigraphy(path, config.timezone, columns=config.actigraphy.columns)
 
 
 def read_diary_file(config: StudyConfig, path: Path, participant: str | None):
-    from .readers.diary import read_diary
+    from sleepfuse.readers.diary import read_diary
 
     return read_diary(path, config.timezone, columns=config.diary.columns, participant=participant)
 

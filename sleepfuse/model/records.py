@@ -15,6 +15,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from sleepfuse.model.clock import night_of
+
 
 @dataclass(frozen=True)
 class Problem:
@@ -29,7 +31,7 @@ class Problem:
 
 @dataclass
 class Hypnogram:
-    """A PSG hypnogram: one stage code (sleepfuse.stages.Stage) per epoch.
+    """A PSG hypnogram: one stage code (sleepfuse.model.stages.Stage) per epoch.
 
     ``start`` is the start of epoch 0; epochs are ``epoch_s`` seconds long and
     contiguous in elapsed time. ``record_start`` is the EDF header start time.
@@ -113,3 +115,44 @@ class Diary:
     path: Path
     entries: list[DiaryEntry]
     problems: list[Problem] = field(default_factory=list)
+
+
+SOURCES = ("psg", "actigraphy", "diary")
+
+
+@dataclass
+class ParticipantRecords:
+    """Everything read for one participant, with the nights each instrument covers."""
+
+    participant: str
+    hypnograms: list[Hypnogram] = field(default_factory=list)
+    actigraphy: list[ActigraphyRecord] = field(default_factory=list)
+    diary: list[DiaryEntry] = field(default_factory=list)
+    files: list[Path] = field(default_factory=list)
+    digests: dict[Path, str] = field(default_factory=dict)  # SHA-256 of files whose reader hashed what it read
+
+    def nights(self, source: str) -> list[dt.date]:
+        """Sorted nights on which ``source`` has data (noon-to-noon rule)."""
+        if source == "psg":
+            found = {hypnogram_night(h) for h in self.hypnograms}
+        elif source == "actigraphy":
+            found = {n for rec in self.actigraphy for n in actigraphy_nights(rec)}
+        elif source == "diary":
+            found = {e.night for e in self.diary}
+        else:
+            raise ValueError(f"unknown source {source!r}; allowed: {', '.join(SOURCES)}")
+        return sorted(found)
+
+
+def hypnogram_night(h: Hypnogram) -> dt.date:
+    """A PSG recording's night: the night its sleep opportunity (or recording) begins."""
+    return night_of(h.lights_off if h.lights_off is not None else h.start)
+
+
+def actigraphy_nights(rec: ActigraphyRecord) -> list[dt.date]:
+    """Every night (noon-to-noon day) that an actigraphy record overlaps."""
+    if rec.n_epochs == 0:
+        return []
+    first = night_of(rec.start)
+    last = night_of(rec.end - pd.Timedelta(seconds=rec.epoch_s))
+    return [first + dt.timedelta(days=i) for i in range((last - first).days + 1)]

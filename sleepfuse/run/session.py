@@ -5,7 +5,7 @@ No interface code here (the terminal app imports this, never the reverse).
 rows as they come; ``Workspace`` answers the questions the screens ask
 (cell status per participant-night, a night's instruments and parameters,
 the agreement of a pair) and records review decisions through
-``sleepfuse.review``. Epoch detail (hypnograms, per-minute actigraphy) is
+``sleepfuse.study.review``. Epoch detail (hypnograms, per-minute actigraphy) is
 kept for every participant of small studies and re-scored on demand, with a
 small cache, for big ones, so memory stays bounded.
 """
@@ -21,16 +21,16 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .batch import ParticipantOutcome, job_inputs
-from .config import StudyConfig, load_config
-from .definitions import PAIRS, PARAMETERS, pair_name
-from .fusion.disagreement import rank_disagreements
-from .fusion.epoch_table import epoch_rows
-from .fusion.pairs import agreement_table, paired_nights, shared_parameters
-from .pipeline import ParticipantJob, StudyResult, plan_jobs, process_participant
-from .qc import QCEntry, QCLog
-from .review import Decision, apply_decisions, effective, load_decisions, record_decision
-from .scoring.nights import SOURCE_PARAMETERS, ScoredParticipant, night_table, rhythm_table
+from sleepfuse.run.engine import ParticipantOutcome, job_inputs
+from sleepfuse.model.config import StudyConfig, load_config
+from sleepfuse.model.definitions import PAIRS, PARAMETERS, pair_name
+from sleepfuse.fusion.disagreement import rank_disagreements
+from sleepfuse.fusion.epoch_table import epoch_rows
+from sleepfuse.fusion.pairs import agreement_table, paired_nights, shared_parameters
+from sleepfuse.run.participant import ParticipantJob, StudyResult, plan_jobs, process_participant
+from sleepfuse.model.qc import QCEntry, QCLog
+from sleepfuse.study.review import Decision, apply_decisions, effective, load_decisions, record_decision
+from sleepfuse.scoring.nights import SOURCE_PARAMETERS, ScoredParticipant, night_table, rhythm_table
 
 SOURCES = ("psg", "actigraphy", "diary")
 SOURCE_LETTER = {"psg": "P", "actigraphy": "A", "diary": "D"}
@@ -67,7 +67,7 @@ class StudyLoader:
     """Discover a study's files now; score its participants chunk by chunk later (for a progress display).
 
     Participants whose files and settings are unchanged come from the batch
-    cache (``sleepfuse.cache``) without their epoch detail, which the
+    cache (``sleepfuse.run.cache``) without their epoch detail, which the
     workspace re-scores on demand; the others are scored and stored.
     """
 
@@ -89,7 +89,7 @@ class StudyLoader:
 
     def score(self, participants: list[str]) -> pd.DataFrame:
         """Score these participants; returns their night rows with review decisions applied."""
-        from .cache import CacheUnavailable, OutcomeCache, cacheable, config_fingerprint, library_versions, participant_key
+        from sleepfuse.run.cache import CacheUnavailable, OutcomeCache, cacheable, config_fingerprint, library_versions, participant_key
 
         cache = None
         if self.use_cache:
@@ -300,7 +300,7 @@ class Workspace:
 
     def matrix(self, *, min_nights: int = 1) -> pd.DataFrame:
         """The participant × feature matrix (as matrix.csv of ``sleepfuse batch``), review decisions honoured."""
-        from .fusion.matrix import participant_matrix
+        from sleepfuse.fusion.matrix import participant_matrix
 
         return participant_matrix(self.nights, self.rhythm, min_nights=min_nights, participants=self.participants)
 

@@ -9,21 +9,10 @@ from __future__ import annotations
 
 import argparse
 import sys
-from pathlib import Path
 
-from . import RESEARCH_CAUTION, __version__
-from .errors import ConfigError
-
-EXIT_OK, EXIT_NOTHING, EXIT_USAGE = 0, 1, 2
-
-
-def study_dir(value: str) -> Path:
-    """argparse type of a STUDY argument: an existing folder."""
-    path = Path(value)
-    if not path.is_dir():
-        raise argparse.ArgumentTypeError(f"{value!r} is not a folder; give the study folder (with psg/, actigraphy/, diary/)")
-    return path
-
+from sleepfuse import RESEARCH_CAUTION, __version__
+from sleepfuse.cli.args import EXIT_NOTHING, EXIT_OK, EXIT_USAGE, study_dir
+from sleepfuse.model.errors import ConfigError
 
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
@@ -52,14 +41,13 @@ def build_parser() -> argparse.ArgumentParser:
 
 def _add_later_commands(sub) -> None:
     """Commands whose modules import heavier dependencies register themselves here."""
-    from . import commands
-
+    from sleepfuse.cli import commands
     commands.register(sub)
 
 
 def _run_check(args: argparse.Namespace) -> int:
-    from .report import print_check
-    from .study import load_study
+    from sleepfuse.cli.console import print_check
+    from sleepfuse.study.folder import load_study
 
     try:
         study = load_study(args.study)

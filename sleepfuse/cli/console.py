@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from typing import TextIO
 
-from . import RESEARCH_CAUTION
-from .study import SOURCES, Study
+from sleepfuse import RESEARCH_CAUTION
+from sleepfuse.study.folder import SOURCES, Study
 
 
 def _nights_label(nights) -> str:

@@ -13,8 +13,8 @@ from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any
 
-from .errors import ConfigError
-from .timeutil import machine_timezone, zone
+from sleepfuse.model.errors import ConfigError
+from sleepfuse.model.clock import machine_timezone, zone
 
 ACTIGRAPHY_ALGORITHMS = ("cole-kripke", "sadeh")
 # Cole–Kripke 1992 1-min coefficient sets (see sleepfuse/scoring/actigraphy.py).

@@ -1,0 +1,172 @@
+"""The unit of work and how it runs: one participant read, scored and compared, here or in workers.
+
+``run_participant`` is what every front end runs for a participant (batch, the
+terminal app's session, Dask workers); ``run_jobs`` runs many of them in this
+process, in a process pool or on a Dask cluster, and hands each outcome back
+as it arrives. Output tables are built elsewhere (``run.tables``).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from concurrent.futures import ProcessPoolExecutor, ThreadPoolExecutor, as_completed
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable
+
+from sleepfuse.fusion.epoch_table import epoch_rows
+from sleepfuse.model.config import StudyConfig
+from sleepfuse.model.qc import QCEntry, QCLog
+from sleepfuse.run._alloc import tune_allocator
+from sleepfuse.run.participant import ParticipantJob, process_participant
+from sleepfuse.study.folder import sha256_of
+
+
+@dataclass
+class ParticipantOutcome:
+    """What a worker sends back for one participant: small tables, never raw epoch arrays."""
+
+    participant: str
+    rows: list[dict]
+    rhythm: dict
+    epoch_rows: list[dict]
+    qc: list[QCEntry]
+    inputs: list[dict] = field(default_factory=list)
+
+
+
+def run_participant(config: StudyConfig, job: ParticipantJob, inputs: list[dict] | None = None) -> ParticipantOutcome:
+    """Read, score and compare the instruments of one participant (runs in a worker).
+
+    ``inputs`` are the files' provenance records if already made (checksums
+    are computed once, by the caller); otherwise they are made here.
+    """
+    tune_allocator()  # once per process (forked workers inherit it; Dask workers set it here)
+    scored, entries = process_participant(config, job)
+    qc = QCLog(list(entries))
+    try:
+        erows = epoch_rows(config, scored, qc)
+    except Exception as exc:  # epoch agreement is optional; never lose the participant for it
+        qc.error(f"epoch-by-epoch agreement not computed: {type(exc).__name__}: {exc}", participant=job.participant)
+        erows = []
+    if inputs is None:
+        inputs = job_inputs(config, job, scored.digests)
+    return ParticipantOutcome(job.participant, scored.rows, scored.rhythm, erows, qc.entries, list(inputs))
+
+
+def job_inputs(config: StudyConfig, job: ParticipantJob, digests: dict[Path, str] | None = None) -> list[dict]:
+    """Provenance record (relative path, source, SHA-256, size, time) of each of a job's files.
+
+    ``digests``: SHA-256 of files already hashed by their reader (of the very bytes it read)."""
+    digests = digests or {}
+    return [input_record(config, p, source, digests.get(p)) for source, paths in job.files.items() for p in paths]
+
+
+def failed_outcome(config: StudyConfig, job: ParticipantJob, exc: BaseException,
+                   inputs: list[dict] | None = None) -> ParticipantOutcome:
+    """A participant whose worker crashed: one QC error, no rows (never cached); its files still in provenance."""
+    entry = QCEntry("", job.participant, "", "error", f"participant not processed: {type(exc).__name__}: {exc}")
+    if inputs is None:
+        inputs = job_inputs(config, job)
+    return ParticipantOutcome(job.participant, [], {}, [], [entry], list(inputs))
+
+
+def input_record(config: StudyConfig, path: Path, source: str, digest: str | None = None) -> dict:
+    try:
+        stat = path.stat()
+        digest = digest or sha256_of(path)
+    except OSError as exc:
+        return {"file": rel_path(config, path), "source": source, "sha256": "", "error": str(exc)}
+    return {
+        "file": rel_path(config, path),
+        "source": source,
+        "sha256": digest,
+        "bytes": stat.st_size,
+        "modified": dt.datetime.fromtimestamp(stat.st_mtime, dt.timezone.utc).isoformat(),
+    }
+
+
+def rel_path(config: StudyConfig, path: Path) -> str:
+    try:
+        return str(Path(path).relative_to(config.root))
+    except ValueError:
+        return str(path)
+
+
+def run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
+              progress: Callable[[str, int, int], None] | None, *,
+              inputs: list[list[dict]] | None = None, scheduler: str | None = None,
+              on_done: Callable[[int, ParticipantOutcome], None] | None = None,
+              done_before: int = 0, total: int | None = None,
+              pool: ProcessPoolExecutor | None = None) -> list[ParticipantOutcome]:
+    """Run ``run_participant`` for every job: here, in a process pool or on a Dask cluster.
+
+    Outcomes come back sorted by participant whichever way they ran, so the
+    tables are the same. ``on_done(index, outcome)`` is called as each one
+    arrives (the cache stores it then); progress counts from ``done_before``.
+    """
+    outcomes: list[ParticipantOutcome] = []
+    n = len(jobs)
+    total = n + done_before if total is None else total
+    inputs = inputs if inputs is not None else [None] * n  # type: ignore[list-item]
+
+    def finish(k: int, outcome: ParticipantOutcome, i: int) -> None:
+        outcomes.append(outcome)
+        if on_done:
+            on_done(k, outcome)
+        if progress:
+            progress(jobs[k].participant, done_before + i, total)
+
+    if scheduler:
+        from sleepfuse.run.distributed import run_jobs_on_dask
+
+        run_jobs_on_dask(config, jobs, inputs, scheduler, workers, finish,
+                         run_one=run_participant, on_error=failed_outcome)
+    elif workers <= 1 or n <= 1:
+        for k, job in enumerate(jobs):
+            if progress:
+                progress(job.participant, done_before + k, total)
+            finish(k, run_participant(config, job, inputs[k]), k + 1)
+    else:
+        own = pool is None  # a pool of its own, or the caller's (batch keeps it for writing the tables)
+        if own:
+            _preload()
+            pool = ProcessPoolExecutor(max_workers=min(workers, n))
+        try:
+            futures = {pool.submit(run_participant, config, job, inputs[k]): k for k, job in enumerate(jobs)}
+            for i, fut in enumerate(as_completed(futures)):
+                k = futures[fut]
+                try:
+                    outcome = fut.result()
+                except Exception as exc:  # a crashed worker loses one participant, not the study
+                    outcome = failed_outcome(config, jobs[k], exc, inputs[k])
+                finish(k, outcome, i + 1)
+        finally:
+            if own:
+                pool.shutdown(wait=True)
+    if progress:
+        progress("", done_before + n, total)
+    return sorted(outcomes, key=lambda o: o.participant)
+
+
+def process_pool(workers: int, scheduler: str | None, n_jobs: int) -> ProcessPoolExecutor | None:
+    """The worker pool of a run with --workers N > 1 and no Dask scheduler (None otherwise)."""
+    if scheduler or workers <= 1 or n_jobs <= 1:
+        return None
+    _preload()
+    return ProcessPoolExecutor(max_workers=min(workers, n_jobs))
+
+
+def _preload() -> None:
+    """Import what every worker needs before the pool forks, so each worker does not import it again."""
+    import pyarrow.csv  # noqa: F401
+
+    from sleepfuse.readers import actigraphy, diary, edf  # noqa: F401
+
+
+def hash_inputs(config: StudyConfig, jobs: list[ParticipantJob], workers: int = 2) -> list[list[dict]]:
+    """Provenance records (with SHA-256) of every job's files, hashed on a few threads (hashlib frees the GIL)."""
+    if len(jobs) <= 1:
+        return [job_inputs(config, j) for j in jobs]
+    with ThreadPoolExecutor(max_workers=max(2, min(8, workers))) as pool:
+        return list(pool.map(lambda j: job_inputs(config, j), jobs))
