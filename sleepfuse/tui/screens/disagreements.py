@@ -17,7 +17,7 @@ from textual.widgets import DataTable, Footer, Static
 
 from sleepfuse.model.definitions import PARAMETERS
 from ..widgets.appbar import AppBar
-from ..widgets.numbers import fmt
+from sleepfuse.model.numbers import fmt
 from .choice import choice_line
 from . import tcss
 

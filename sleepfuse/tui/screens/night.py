@@ -21,7 +21,7 @@ from sleepfuse.model.definitions import PAIRS, pair_name
 from sleepfuse.run.session import SOURCES
 from ..messages import NightScored
 from ..widgets.appbar import AppBar
-from ..widgets.numbers import fmt
+from sleepfuse.model.numbers import fmt
 from ..widgets.timeline import NightTimeline, night_picture
 from . import tcss
 
