@@ -34,3 +34,23 @@ def test_narrow_column_values():
     assert fmt(30.5) == "30.5"
     assert fmt(85.0, "%") == "85.0"
     assert fmt(4.0, signed=True) == "+4"
+
+
+def test_figures_and_report_print_a_true_minus():
+    import numpy as np
+
+    from sleepfuse.model.numbers import MINUS
+
+    assert format_number(-3.25, 1, minus=MINUS) == "−3.2"  # half to even, as Python's format rounds
+    assert format_number(-0.04, 1, minus=MINUS) == "0.0"
+    assert format_number(np.float32(-2.5), 1, minus=MINUS) == "−2.5"
+    assert format_number(np.int64(7), 0) == "7"  # numpy scalars are numbers too
+
+
+def test_intervals_p_sentences_and_levels():
+    from sleepfuse.model.numbers import MINUS, format_interval, format_level, format_p_text
+
+    assert format_interval(-8.34, 1.88, minus=MINUS) == "−8.3 to 1.9"
+    assert format_interval(0.1, math.nan) == MISSING
+    assert format_p_text(3.6e-6) == "p < 0.001" and format_p_text(0.0384) == "p = 0.038"
+    assert format_level(0.95) == "95%" and format_level(0.975) == "97.5%"
