@@ -65,6 +65,9 @@ def register_batch(sub) -> None:
     p.add_argument("--out", type=Path, required=True, metavar="DIR", help="output folder (created if missing)")
     p.add_argument("--format", choices=("csv", "parquet"), default="csv", help="table format (default: csv)")
     p.add_argument("--plots", action="store_true", help="also write Bland–Altman figures (PNG and SVG) into DIR/plots/")
+    p.add_argument("--report", action="store_true",
+                   help="also write DIR/report.html: one self-contained study report (summary, completeness, QC, "
+                        "parameters, agreement with figures, nights to look at, review, methods, codebook)")
     p.add_argument("--workers", type=_positive_int, default=1, metavar="N",
                    help="process participants in N parallel worker processes (default: 1)")
     p.add_argument("--zscore", action="store_true", help="standardise every matrix feature over participants")
@@ -78,6 +81,15 @@ def register_batch(sub) -> None:
                         "tcp://head:8786, or 'local' to start a local cluster of --workers processes "
                         "(needs: pip install 'sleepfuse[cluster]')")
     p.set_defaults(func=run_batch_command)
+    p = sub.add_parser(
+        "report",
+        help="rebuild report.html from an existing batch output folder (no scoring)",
+        description="Write OUTDIR/report.html from the tables and provenance.json of a finished "
+        "'sleepfuse batch' run, without reading or scoring the study again. The report is one self-contained "
+        "HTML file: it opens offline and prints.",
+    )
+    p.add_argument("outdir", type=Path, metavar="OUTDIR", help="output folder of 'sleepfuse batch' (with provenance.json)")
+    p.set_defaults(func=run_report_command)
 
 
 def _positive_int(value: str) -> int:
@@ -93,17 +105,17 @@ def _positive_int(value: str) -> int:
 def run_batch_command(args: argparse.Namespace) -> int:
     import pandas as pd
 
+    from sleepfuse.cli.progress import progress_bars
     from sleepfuse.run.batch import BatchOptions, run_batch
-    from sleepfuse.cli.progress import participant_progress
-
     from sleepfuse.run.distributed import DaskUnavailable
 
     options = BatchOptions(out=args.out, format=args.format, plots=args.plots, workers=args.workers,
                            zscore=args.zscore, min_nights=args.min_nights, cache=args.cache,
-                           scheduler=args.scheduler)
+                           scheduler=args.scheduler, report=args.report)
     try:
-        with participant_progress() as update:
-            result = run_batch(args.study, options, progress=update, argv=sys.argv)
+        with progress_bars() as bar:
+            result = run_batch(args.study, options, progress=bar("participants"), argv=sys.argv,
+                               step_progress=bar)
     except DaskUnavailable as exc:
         print(f"sleepfuse: {exc}", file=sys.stderr)
         return 2
@@ -121,4 +133,19 @@ def run_batch_command(args: argparse.Namespace) -> int:
     if result.n_scored_nights == 0:
         print("sleepfuse: nothing could be processed; see qc in the output folder", file=sys.stderr)
         return 1
+    return 0
+
+
+def run_report_command(args: argparse.Namespace) -> int:
+    from sleepfuse.cli.progress import participant_progress
+    from sleepfuse.model.errors import ReadError
+    from sleepfuse.output.report import rebuild_report
+
+    try:
+        with participant_progress("figures") as update:
+            path = rebuild_report(args.outdir, progress=update)
+    except ReadError as exc:
+        print(f"sleepfuse: {exc}", file=sys.stderr)
+        return 1
+    print(f"wrote {path}", file=sys.stderr)
     return 0

@@ -34,7 +34,7 @@ from sleepfuse.model.config import StudyConfig, load_config
 from sleepfuse.output.csvtext import csv_chunks
 from sleepfuse.fusion.epoch_table import epoch_table
 from sleepfuse.fusion.matrix import codebook, participant_matrix
-from sleepfuse.fusion.pairs import agreement_table, paired_nights
+from sleepfuse.fusion.pairs import agreement_table
 from sleepfuse.run.engine import ParticipantOutcome, input_record, process_pool, rel_path
 from sleepfuse.run.participant import plan_jobs
 from sleepfuse.model.qc import QCLog
@@ -56,6 +56,7 @@ class BatchOptions:
     min_nights: int = 1
     cache: bool = True  # use and update <study>/.sleepfuse-cache/ (False: --no-cache, full run)
     scheduler: str | None = None  # Dask scheduler address, "local" for a LocalCluster, None: no Dask
+    report: bool = False  # also write report.html (sleepfuse.output.report)
 
 
 @dataclass
@@ -128,26 +129,6 @@ def write_table(df: pd.DataFrame, path_base: Path, fmt: str) -> Path:
     return path
 
 
-def write_plots(tables: dict[str, pd.DataFrame], out: Path) -> list[Path]:
-    """One Bland–Altman figure (PNG + SVG) per parameter and pair into out/plots/."""
-    from sleepfuse.model.definitions import label_of
-    from sleepfuse.output.figures import bland_altman_figure, save_figure
-
-    nights = tables["nights"]
-    written: list[Path] = []
-    for _, stats in tables["agreement"].iterrows():
-        test, reference = stats["pair"].split("-")
-        paired = paired_nights(nights, test, reference) if not nights.empty else pd.DataFrame()
-        param = stats["parameter"]
-        if paired.empty:
-            t = r = ids = np.array([], dtype=float)
-        else:
-            t, r, ids = paired[f"{param}_test"].to_numpy(float), paired[f"{param}_ref"].to_numpy(float), paired["participant"].to_numpy(object)
-        fig = bland_altman_figure(t, r, stats.to_dict(), parameter=label_of(param), pair=stats["pair"], unit=stats["unit"], participant=ids)
-        written += save_figure(fig, out / "plots" / f"{stats['pair']}_{param}")
-    return written
-
-
 def run_batch(
     study: str | Path,
     options: BatchOptions,
@@ -155,8 +136,13 @@ def run_batch(
     config: StudyConfig | None = None,
     progress: Callable[[str, int, int], None] | None = None,
     argv: list[str] | None = None,
+    step_progress: Callable[[str], Callable[[str, int, int], None]] | None = None,
 ) -> BatchResult:
-    """Score the study and write every output table into ``options.out``."""
+    """Score the study and write every output table into ``options.out``.
+
+    ``progress(participant, i, n)`` follows the participants; ``step_progress(label)``
+    gives the same kind of callback for the later steps ("figures", "report").
+    """
     if options.format not in FORMATS:
         raise ValueError(f"format {options.format!r} not in {FORMATS}")
     started = dt.datetime.now(dt.timezone.utc)
@@ -184,8 +170,11 @@ def run_batch(
     inputs = [i for o in outcomes for i in o.inputs]
     seen = {i["file"] for i in inputs}
     inputs += [input_record(config, p, "diary") for p in files if rel_path(config, p) not in seen]
+    svgs: dict = {}  # figures drawn for plots/, reused by the report
     if options.plots:
-        written += write_plots(tables, out)
+        from sleepfuse.output.figures import write_plots
+
+        written += write_plots(tables, out, step_progress("figures") if step_progress else None, svgs)
     nights = tables["nights"]
     provenance = {
         "tool": "sleepfuse",
@@ -199,7 +188,8 @@ def run_batch(
         "study": str(Path(study).resolve()),
         "configuration": config.to_dict(),
         "algorithm": algorithm_provenance(config),
-        "options": {"format": options.format, "plots": options.plots, "workers": options.workers,
+        "options": {"format": options.format, "plots": options.plots, "report": options.report,
+                    "workers": options.workers,
                     "zscore": options.zscore, "min_nights": options.min_nights, "cache": options.cache,
                     "scheduler": options.scheduler},
         "cache": vars(cache_report),
@@ -218,6 +208,13 @@ def run_batch(
         },
     }
     prov_path = out / "provenance.json"
+    if options.report:  # before provenance.json, which marks a complete run
+        from sleepfuse.output.report import REPORT_FILE, write_report
+
+        provenance["outputs"].append(REPORT_FILE)
+        as_written = json.loads(json.dumps(provenance, default=_json_default))  # what `sleepfuse report` reads
+        written.append(write_report(out / REPORT_FILE, tables, as_written,
+                                    progress=step_progress("report") if step_progress else None, svgs=svgs))
     write_text(prov_path, json.dumps(provenance, indent=2, default=_json_default, allow_nan=False) + "\n")
     written.append(prov_path)
     scored = int(nights["included"].sum()) if not nights.empty else 0
