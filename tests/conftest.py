@@ -41,6 +41,12 @@ def make_messy_study(root: Path) -> Path:
     return root
 
 
+@pytest.fixture(autouse=True)
+def _private_config_home(tmp_path_factory, monkeypatch):
+    """The app remembers export folders in the user's configuration folder: never the real one in tests."""
+    monkeypatch.setenv("XDG_CONFIG_HOME", str(tmp_path_factory.mktemp("config-home")))
+
+
 @pytest.fixture
 def messy_study(tmp_path) -> Path:
     return make_messy_study(tmp_path / "messy")

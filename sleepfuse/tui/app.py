@@ -37,6 +37,7 @@ class SleepfuseApp(App):
         self.workspace = workspace
         self.study_name = study_name or (workspace.name if workspace else self.study.name)
         self.export_dir = Path(export_dir) if export_dir else self.study.resolve().parent / f"{self.study.name}-sleepfuse-out"
+        self.export_dir_given = export_dir is not None  # --export-dir wins over the folder remembered
         self.choice = PairChoice()
 
     def on_mount(self) -> None:
@@ -65,7 +66,7 @@ class SleepfuseApp(App):
             self.push_screen(ExploreScreen())
 
     def action_export(self) -> None:
-        self.push_screen(ExportScreen(self.study, self.export_dir))
+        self.push_screen(ExportScreen(self.study, self.export_dir, explicit=self.export_dir_given))
 
     def action_help(self) -> None:
         if not isinstance(self.screen, HelpScreen):
@@ -82,7 +83,7 @@ class SleepfuseApp(App):
             ("Clusters (c)", ExploreScreen.BINDINGS, ExploreScreen.HELP_KEYS),
             ("Review dialog (x, i)", ReviewDialog.BINDINGS,
              [("enter", "save the decision")]),
-            ("Export (e)", ExportScreen.BINDINGS, [("enter", "start the export into the folder typed")]),
+            ("Export (e)", ExportScreen.BINDINGS, ExportScreen.HELP_KEYS),
             ("Help", HelpScreen.BINDINGS, []),
         ]
 

@@ -49,9 +49,11 @@ class NightScored(Message):
 
 
 class ExportProgressed(Message):
-    def __init__(self, participant: str, done: int, total: int) -> None:
+    """A step of the export moved on: ``step`` is "participants", "figures" or "report"."""
+
+    def __init__(self, participant: str, done: int, total: int, *, step: str = "participants") -> None:
         super().__init__()
-        self.participant, self.done, self.total = participant, done, total
+        self.participant, self.done, self.total, self.step = participant, done, total, step
 
 
 class ExportFinished(Message):
