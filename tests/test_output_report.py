@@ -195,6 +195,7 @@ def test_agreement_columns_of_the_nested_statistics_are_shown(run, quick_figures
     ag["mn_loa_ci_method"] = "cluster bootstrap"
     ag["ccc_ci_method"] = "cluster bootstrap"
     ag["prop_bias_method"] = "mixed model, random intercept per participant"
+    ag.loc[ag["pair"] == "diary-psg", "loa_ci_method"] = "exact (Carkeet 2015)"
     for side in ("low", "high"):
         ag[f"mn_loa_{side}_ci_low"] = ag[f"mn_loa_{side}"] - 1.25
         ag[f"mn_loa_{side}_ci_high"] = ag[f"mn_loa_{side}"] + 1.25
@@ -207,6 +208,10 @@ def test_agreement_columns_of_the_nested_statistics_are_shown(run, quick_figures
     assert "identical by construction" in html
     assert "mixed model, random intercept per participant" in html and "cluster bootstrap" in html
     assert "2 infinite pair(s) left out" in html
+    per_pair = re.findall(r"Methods for this pair: ([^<]*)", html)
+    assert len(per_pair) == 3 and "exact (Carkeet 2015)" in per_pair[1]
+    assert "exact" not in per_pair[0] and "confidence intervals of the limits: cluster bootstrap" in per_pair[0]
+    assert any(r.startswith("Carkeet A") for r in re.findall(r"<li>([^<]*)</li>", html))
     assert "0.64 (p &lt; 0.001)" in html
     first = ag.iloc[0]
     assert f"{first['mn_loa_low'] - 1.25:.1f}".replace("-", "−") in html

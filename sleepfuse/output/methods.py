@@ -108,7 +108,7 @@ def _bouts(minimum) -> str:
     return f"wake bouts shorter than {number_text(minimum, 1)} min were not counted"
 
 
-def _methods_used(agreement) -> dict[str, list[str]]:
+def methods_used(agreement) -> dict[str, list[str]]:
     """The distinct method labels of each method column of agreement.csv (fallback text when absent)."""
     out = {}
     for col, what in METHOD_COLUMNS.items():
@@ -163,7 +163,7 @@ def methods(provenance: dict, agreement=None, level: str = "95%") -> dict:
     paragraphs.append(text + " " + NONWEAR_TEXT.get(nonwear, f"Non-wear rule: {nonwear}") + "; non-wear epochs "
                       "count as neither sleep nor wake. The rest-activity rhythm (IS, IV, M10, L5, RA) was computed "
                       "per participant on hourly means (Van Someren et al. 1999).")
-    used = _methods_used(agreement)
+    used = methods_used(agreement)
     cite("bland1986", "bland1999", "bland2007", "lin1989", "lin2000", "mcgraw1996", "shrout1979", "cohen1960")
     intervals = "; ".join(f"{METHOD_COLUMNS[c]}: {', '.join(v)}" for c, v in used.items() if v)
     if any("carkeet" in v.lower() or "exact" in v.lower() for vs in used.values() for v in vs):

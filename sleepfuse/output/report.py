@@ -133,7 +133,7 @@ def agreement_figures(tables: dict, progress: Callable[[str, int, int], None] | 
 def context(tables: dict, provenance: dict, progress: Callable[[str, int, int], None] | None = None,
             svgs: dict | None = None) -> dict:
     """Everything the template shows."""
-    from sleepfuse.output.agreement_rows import confidence_of
+    from sleepfuse.output.agreement_rows import by_construction, confidence_of
 
     tables = _normalised(tables)
     agreement = tables["agreement"]
@@ -144,7 +144,12 @@ def context(tables: dict, provenance: dict, progress: Callable[[str, int, int], 
         rows = sections.agreement_rows(agreement, pair)
         for row in rows:
             row["figure"] = figures.get((pair, row["parameter"]))
-        pairs.append({"pair": pair, "title": f"{SOURCE_NAMES[test]} − {SOURCE_NAMES[reference]}", "rows": rows})
+        shown = agreement[(agreement["pair"] == pair)
+                          & ~agreement.apply(lambda r: by_construction(r.to_dict()), axis=1)] if len(agreement) else agreement
+        methods = [f"{methods_text.METHOD_COLUMNS[c]}: {', '.join(v)}"
+                   for c, v in methods_text.methods_used(shown).items() if v]
+        pairs.append({"pair": pair, "title": f"{SOURCE_NAMES[test]} − {SOURCE_NAMES[reference]}", "rows": rows,
+                      "methods": methods})
     config = dict(provenance.get("configuration") or {})
     level = numbers.format_level(confidence_of(agreement.iloc[0].to_dict()) if len(agreement) else None)
     return {
@@ -162,7 +167,6 @@ def context(tables: dict, provenance: dict, progress: Callable[[str, int, int], 
         "look_at": sections.nights_to_look_at(tables),
         "review": sections.review_section(provenance),
         "methods": methods_text.methods(provenance, agreement, level),
-        "method_columns": methods_text.METHOD_COLUMNS,
         "codebook": sections.codebook_rows(tables),
         "level": level,
         "generated": dt.datetime.now(dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"),
