@@ -271,3 +271,18 @@ def test_corrected_limits_a_line_width_away_are_named_not_drawn():
     fig = bland_altman_figure(act, psg, stats, parameter="TST", pair="actigraphy-psg", unit="min", participant=ids)
     assert not [line for line in fig.axes[0].get_lines() if line.get_linestyle() == "--" and len(line.get_ydata())]
     assert "(not drawn: on the limits of agreement)" in _texts(fig)
+
+
+def test_figures_get_the_permissions_of_the_tables(tmp_path):
+    """Interface issue: figures were written -rw------- (private) while tables were 0644."""
+    import stat
+
+    from sleepfuse.output.files import write_text
+
+    act, psg, ids = _proportional_case()
+    paths = save_figure(bland_altman_figure(act, psg, agreement(act, psg, ids), parameter="TST",
+                                            pair="actigraphy-psg", unit="min", participant=ids), tmp_path / "f")
+    table = write_text(tmp_path / "t.csv", "a\n")
+    mode = stat.S_IMODE(table.stat().st_mode)
+    assert mode & stat.S_IRGRP and mode & stat.S_IROTH  # colleagues can read the outputs
+    assert all(stat.S_IMODE(p.stat().st_mode) == mode for p in paths)
