@@ -307,3 +307,18 @@ def test_codebook_lists_every_matrix_column(run):
     for name in result.tables["codebook"]["name"]:
         assert f"<code>{name}</code>" in section, name
     assert "Mean and SD (ddof=1) over the participant" in section
+
+
+def test_report_of_a_study_where_nothing_could_be_read(tmp_path, quick_figures):
+    """Bad input gets a clear report too: every participant listed, each bad file marked and named."""
+    study = tmp_path / "bad"
+    (study / "psg").mkdir(parents=True)
+    (study / "actigraphy").mkdir()
+    (study / "psg" / "P01_x.edf").write_text("garbage")
+    (study / "actigraphy" / "P02_x.csv").write_text("time,activity\n1,2\n")
+    assert main(["batch", str(study), "--out", str(tmp_path / "o"), "--report", "--no-cache"]) == 1
+    html = (tmp_path / "o" / REPORT_FILE).read_text(encoding="utf-8")
+    grid = re.search(r'<section id="completeness">.*?</section>', html, re.S).group(0)
+    assert '<th class="who">P01</th>' in grid and '<th class="who">P02</th>' in grid
+    assert 'title="psg/P01_x.edf: PSG file not read' in grid
+    assert "<strong>2</strong> errors" in html
