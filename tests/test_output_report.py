@@ -322,3 +322,4 @@ def test_report_of_a_study_where_nothing_could_be_read(tmp_path, quick_figures):
     assert '<th class="who">P01</th>' in grid and '<th class="who">P02</th>' in grid
     assert 'title="psg/P01_x.edf: PSG file not read' in grid
     assert "<strong>2</strong> errors" in html
+    assert "<svg" not in html  # no figure without nights: the tables say "fewer than 3 paired nights"

@@ -113,10 +113,11 @@ def agreement_figures(tables: dict, progress: Callable[[str, int, int], None] | 
 
     ``svgs``: SVG texts already drawn for the plots folder, by (pair, parameter); others are drawn here.
     """
-    from sleepfuse.output.agreement_rows import drawable_rows
+    from sleepfuse.output.agreement_rows import drawable_rows, has_values
     from sleepfuse.output.figures import figure_of_row, svg_text
 
-    rows = list(drawable_rows(tables["agreement"]))
+    # rows without statistics (fewer than MIN_PAIRS nights) say so in the table; the report draws no empty panel
+    rows = [r for r in drawable_rows(tables["agreement"]) if has_values(r, "bias", "sd")]
     svgs = svgs or {}
     out = {}
     for i, stats in enumerate(rows):
