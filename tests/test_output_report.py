@@ -323,3 +323,11 @@ def test_report_of_a_study_where_nothing_could_be_read(tmp_path, quick_figures):
     assert 'title="psg/P01_x.edf: PSG file not read' in grid
     assert "<strong>2</strong> errors" in html
     assert "<svg" not in html  # no figure without nights: the tables say "fewer than 3 paired nights"
+
+
+def test_text_from_the_study_is_escaped(run, quick_figures):
+    _, out, _, _ = run
+    tables, provenance = load_output(out)
+    provenance["configuration"]["study"]["name"] = "<script>alert(1)</script> & co"
+    html = render(context(tables, provenance))
+    assert "<script" not in html and "&lt;script&gt;alert(1)&lt;/script&gt; &amp; co" in html
