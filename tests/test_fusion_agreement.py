@@ -80,11 +80,12 @@ def test_default_limits_use_1_96(peak_flow):
 
 def test_confidence_intervals_of_bias_and_limits(peak_flow):
     # Source: Bland & Altman 1999 (Stat Methods Med Res 8:135-160) and 1986:
-    # SE(bias) = SD/sqrt(n), SE(limit) ~ sqrt(3 SD^2 / n), t with n-1 df.
+    # SE(bias) = SD/sqrt(n), SE(limit) ~ sqrt(3 SD^2 / n), t with n-1 df (the approximate limits' CI).
     d = (peak_flow["wright"] - peak_flow["mini_wright"]).to_numpy(float)
     n, sd = d.size, d.std(ddof=1)
     t = stats.t.ppf(0.975, n - 1)
-    res = bland_altman(peak_flow["wright"], peak_flow["mini_wright"])
+    res = bland_altman(peak_flow["wright"], peak_flow["mini_wright"], loa_ci="approximate")
+    assert res["loa_ci_method"].startswith("approximate")
     # Bias CI is the one-sample t interval: scipy's own interval is the reference.
     ci = stats.ttest_1samp(d, 0.0).confidence_interval(0.95)
     assert (res["bias_ci_low"], res["bias_ci_high"]) == pytest.approx((ci.low, ci.high), rel=1e-9)
@@ -92,6 +93,28 @@ def test_confidence_intervals_of_bias_and_limits(peak_flow):
     assert res["loa_low_ci_low"] == pytest.approx(res["loa_low"] - half)
     assert res["loa_high_ci_high"] == pytest.approx(res["loa_high"] + half)
     assert res["loa_low_ci_low"] < res["loa_low"] < res["loa_low_ci_high"]
+
+
+def test_exact_limits_ci_peak_flow_carkeet_2015(peak_flow):
+    # Source: Carkeet 2015 (Optom Vis Sci 92:e71-e80), exact CI of the limits by the noncentral t; on the
+    # Bland & Altman 1986 peak-flow data the upper limit's exact 95% CI is [48.86, 119.93] (issue 13's
+    # figure, also reproduced here with scipy.stats.nct as an independent library).
+    res = bland_altman(peak_flow["wright"], peak_flow["mini_wright"])
+    assert res["loa_ci_method"] == "exact, noncentral t (Carkeet 2015)"
+    assert (round(res["loa_high_ci_low"], 2), round(res["loa_high_ci_high"], 2)) == (48.86, 119.93)
+    d = (peak_flow["wright"] - peak_flow["mini_wright"]).to_numpy(float)
+    n, mean, sd = d.size, d.mean(), d.std(ddof=1)
+    q = stats.nct.ppf([0.025, 0.975], n - 1, stats.norm.ppf(0.975) * math.sqrt(n)) / math.sqrt(n)
+    assert res["loa_high_ci_low"] == pytest.approx(mean + q[0] * sd, rel=1e-9)
+    assert res["loa_high_ci_high"] == pytest.approx(mean + q[1] * sd, rel=1e-9)
+    # the lower limit's interval is the mirror image
+    assert res["loa_low_ci_low"] == pytest.approx(mean - q[1] * sd, rel=1e-9)
+    assert res["loa_low_ci_high"] == pytest.approx(mean - q[0] * sd, rel=1e-9)
+    # the exact interval is wider than the approximate one (which undercovers, Carkeet 2015)
+    approx = bland_altman(peak_flow["wright"], peak_flow["mini_wright"], loa_ci="approximate")
+    assert res["loa_high_ci_high"] - res["loa_high_ci_low"] > approx["loa_high_ci_high"] - approx["loa_high_ci_low"]
+    with pytest.raises(ValueError, match="loa_ci"):
+        bland_altman(peak_flow["wright"], peak_flow["mini_wright"], loa_ci="other")
 
 
 def test_proportional_bias_matches_scipy_linregress():
@@ -349,8 +372,11 @@ def test_fewer_than_three_pairs_gives_counts_and_note():
     assert MIN_PAIRS == 3
     assert row["n_nights"] == 2 and row["n_participants"] == 2
     assert row["note"] == "fewer than 3 paired nights: no agreement statistics"
-    numeric = [c for c in AGREEMENT_COLUMNS if c not in ("n_nights", "n_participants", "note")]
+    counts = ("n_nights", "n_participants", "by_construction", "n_inf_dropped")
+    numeric = [c for c in AGREEMENT_COLUMNS if c not in counts and not c.endswith("method") and c != "note"]
     assert all(math.isnan(row[c]) for c in numeric)
+    assert row["by_construction"] is False and row["n_inf_dropped"] == 0
+    assert all(row[c] == "" for c in AGREEMENT_COLUMNS if c.endswith("method"))
     empty = agreement([], [])
     assert empty["n_nights"] == 0 and empty["n_participants"] == 0
 

@@ -4,28 +4,60 @@ Plain functions over paired arrays (test, reference), differences always
 test − reference (actigraphy − PSG, diary − PSG, diary − actigraphy).
 ``agreement`` returns one row of ``agreement.csv`` (columns in
 ``AGREEMENT_COLUMNS``; the caller adds ``parameter`` and ``pair`` first).
+With one night per participant every statistic is single-level; where a
+participant has several nights the intervals and the proportional-bias test
+account for the nesting (``fusion/nested.py``), and the ``*_method`` columns
+say which method gave each interval.
 """
 
 from __future__ import annotations
 
-import functools
 import math
 
 import numpy as np
 import pandas as pd
 from scipy import special  # not scipy.stats: its import alone costs ~0.3 s at every start
 
+from .concordance import icc_a1, lins_ccc
+from .limits import NOT_POSITIVE_NOTE, limit_intervals, positive_spread_range
+from .nested import (
+    BIAS_METHOD,
+    ONE_NIGHT_NOTE,
+    ONE_PARTICIPANT_NOTE,
+    bias_interval,
+    MOVER_METHOD,
+    bootstrap_method,
+    cluster_bootstrap,
+    corrected_limit_intervals,
+    corrected_limits,
+    multi_night_limits,
+    wild_cluster_slope,
+    wild_method,
+)
+from .quantiles import normal_quantile as _z
+from .quantiles import t_quantile as _t
+
+__all__ = ["AGREEMENT_COLUMNS", "MIN_PAIRS", "agreement", "bland_altman", "proportional_bias", "ratio_limits",
+           "multi_night_limits", "lins_ccc", "icc_a1", "ONE_NIGHT_NOTE"]
+
 MIN_PAIRS = 3
 """Fewest paired nights for which agreement statistics are reported."""
+BOOTSTRAP_REPLICATES = 1000
+"""Default B of the cluster bootstrap (``[agreement] bootstrap_replicates``)."""
+BOOTSTRAP_SEED = 20261205
+"""Default seed of the cluster bootstrap (``[agreement] bootstrap_seed``): results repeat exactly."""
 
 AGREEMENT_COLUMNS: list[str] = [
     "n_nights",
     "n_participants",
+    "by_construction",
+    "n_inf_dropped",
     "mean_test",
     "mean_reference",
     "bias",
     "bias_ci_low",
     "bias_ci_high",
+    "bias_ci_method",
     "sd",
     "loa_low",
     "loa_high",
@@ -33,51 +65,53 @@ AGREEMENT_COLUMNS: list[str] = [
     "loa_low_ci_high",
     "loa_high_ci_low",
     "loa_high_ci_high",
+    "loa_ci_method",
     "prop_slope",
     "prop_slope_ci_low",
     "prop_slope_ci_high",
     "prop_p",
     "prop_intercept",
+    "prop_bias_method",
     "reg_loa_intercept_low",
     "reg_loa_slope_low",
     "reg_loa_intercept_high",
     "reg_loa_slope_high",
+    "reg_loa_m_min",
+    "reg_loa_m_max",
     "ratio_gm",
     "ratio_loa_low",
     "ratio_loa_high",
     "mn_sd",
     "mn_loa_low",
     "mn_loa_high",
+    "mn_loa_low_ci_low",
+    "mn_loa_low_ci_high",
+    "mn_loa_high_ci_low",
+    "mn_loa_high_ci_high",
+    "mn_loa_ci_method",
     "mn_sd_between",
     "mn_sd_within",
     "ccc",
     "ccc_ci_low",
     "ccc_ci_high",
+    "ccc_ci_method",
     "icc",
     "note",
 ]
+TEXT_COLUMNS = ("bias_ci_method", "loa_ci_method", "prop_bias_method", "mn_loa_ci_method", "ccc_ci_method", "note")
 
 FEW_PAIRS_NOTE = f"fewer than {MIN_PAIRS} paired nights: no agreement statistics"
-ONE_NIGHT_NOTE = "one night per participant: corrected limits equal naive"
 RATIO_NOTE = "ratio limits not computed: values <= 0"
+CONSTRUCTION_NOTE = "identical by construction"
 PROPORTIONAL_P = 0.05
 """Slope p-value below which proportional bias is reported (common practice)."""
+SINGLE_BIAS_METHOD = "t on n-1 df (Bland & Altman 1999)"
+SINGLE_PROP_METHOD = "OLS, t on n-2 df (Bland & Altman 1999)"
+SINGLE_CCC_METHOD = "Fisher z, asymptotic variance (Lin 1989, 2000)"
+_REG_KEYS = ("reg_loa_intercept_low", "reg_loa_slope_low", "reg_loa_intercept_high", "reg_loa_slope_high",
+             "reg_loa_m_min", "reg_loa_m_max")
 
 _NAN = float("nan")
-
-
-@functools.lru_cache(maxsize=64)
-def _z(confidence: float) -> float:
-    """Two-sided normal quantile, 1.96 for confidence 0.95."""
-    if not 0.0 < confidence < 1.0:
-        raise ValueError(f"confidence must be between 0 and 1 (exclusive), got {confidence!r}")
-    return float(special.ndtri(0.5 + confidence / 2.0))  # what scipy.stats.norm.ppf computes (tested equal)
-
-
-@functools.lru_cache(maxsize=4096)
-def _t(confidence: float, df: int) -> float:
-    """Two-sided t quantile: scipy.stats.t.ppf(0.5 + confidence / 2, df) by the function it calls."""
-    return float(special.stdtrit(df, 0.5 + confidence / 2.0))
 
 
 def _ols(x: np.ndarray, y: np.ndarray) -> tuple[float, float, float, float]:
@@ -115,13 +149,15 @@ def _pair(test, reference) -> tuple[np.ndarray, np.ndarray]:
     return x, y
 
 
-def bland_altman(test, reference, *, confidence: float = 0.95) -> dict:
-    """Bias, SD and limits of agreement of test − reference, with confidence intervals.
+def bland_altman(test, reference, *, confidence: float = 0.95, loa_ci: str = "exact") -> dict:
+    """Bias, SD and limits of agreement of test − reference, with confidence intervals (single level).
 
     Bland & Altman 1986 (Lancet i:307–310): bias = mean difference, SD with
-    ddof=1, limits = bias ± z·SD (z = 1.96 at 95%). CIs (Bland & Altman 1999,
-    Stat Methods Med Res 8:135–160; 1986): SE(bias) = SD/√n,
-    SE(limit) ≈ √(3·SD²/n), t with n − 1 df.
+    ddof=1, limits = bias ± z·SD (z = 1.96 at 95%). Bias CI: t with n − 1 df,
+    SE = SD/√n (Bland & Altman 1999, Stat Methods Med Res 8:135–160). Limits'
+    CIs: exact by the noncentral t (Carkeet 2015, default) or the approximate
+    SE √(3·SD²/n) (Bland & Altman 1986), see ``fusion/limits.py``;
+    ``loa_ci_method`` names the one used.
     """
     x, y = _pair(test, reference)
     d = x - y
@@ -129,8 +165,9 @@ def bland_altman(test, reference, *, confidence: float = 0.95) -> dict:
     n = d.size
     keys = ("bias", "bias_ci_low", "bias_ci_high", "sd", "loa_low", "loa_high",
             "loa_low_ci_low", "loa_low_ci_high", "loa_high_ci_low", "loa_high_ci_high")
-    out = dict.fromkeys(keys, _NAN)
+    out: dict = dict.fromkeys(keys, _NAN)
     out["n"] = n
+    out["loa_ci_method"] = ""
     if n < 2:
         if n == 1:
             out["bias"] = float(d[0])
@@ -140,41 +177,34 @@ def bland_altman(test, reference, *, confidence: float = 0.95) -> dict:
     bias = float(d.mean())
     sd = float(d.std(ddof=1))
     se_bias = sd / math.sqrt(n)
-    se_loa = math.sqrt(3.0 * sd**2 / n)
-    low, high = bias - z * sd, bias + z * sd
-    out.update(
-        bias=bias,
-        bias_ci_low=bias - t * se_bias,
-        bias_ci_high=bias + t * se_bias,
-        sd=sd,
-        loa_low=low,
-        loa_high=high,
-        loa_low_ci_low=low - t * se_loa,
-        loa_low_ci_high=low + t * se_loa,
-        loa_high_ci_low=high - t * se_loa,
-        loa_high_ci_high=high + t * se_loa,
-    )
+    out.update(bias=bias, bias_ci_low=bias - t * se_bias, bias_ci_high=bias + t * se_bias, sd=sd,
+               loa_low=bias - z * sd, loa_high=bias + z * sd)
+    ci = limit_intervals(bias, sd, n, confidence=confidence, method=loa_ci)
+    out["loa_ci_method"] = ci.pop("method")
+    out.update(ci)
     return out
 
 
 def proportional_bias(test, reference, *, confidence: float = 0.95) -> dict:
-    """OLS regression of the difference on the pair mean, and regression-based limits.
+    """OLS regression of the difference on the pair mean, and regression-based limits (single level).
 
     Slope with its CI (t, n − 2 df) and two-sided p. Regression-based limits
     (Bland & Altman 1999 §3.2): regress |residuals| on the mean,
     limits = (b0 + b1·m) ± z·√(π/2)·(c0 + c1·m); returned as intercept and
-    slope of the lower and upper limit lines (computed whatever the p-value;
-    ``agreement`` keeps them only when p < 0.05).
+    slope of the lower and upper limit lines with the range of means
+    (``reg_loa_m_min`` … ``reg_loa_m_max``) inside the observed one where the
+    fitted spread c0 + c1·m is positive, so the lines never cross there; when
+    it is nowhere positive the lines are NaN and ``reg_note`` says why.
+    Computed whatever the p-value; ``agreement`` keeps them only when p < 0.05.
     """
     x, y = _pair(test, reference)
     keep = np.isfinite(x) & np.isfinite(y)
     d = (x - y)[keep]
     m = ((x + y) / 2.0)[keep]
     n = d.size
-    keys = ("prop_slope", "prop_slope_ci_low", "prop_slope_ci_high", "prop_p",
-            "prop_intercept", "reg_loa_intercept_low", "reg_loa_slope_low",
-            "reg_loa_intercept_high", "reg_loa_slope_high")
-    out = dict.fromkeys(keys, _NAN)
+    keys = ("prop_slope", "prop_slope_ci_low", "prop_slope_ci_high", "prop_p", "prop_intercept", *_REG_KEYS)
+    out: dict = dict.fromkeys(keys, _NAN)
+    out["reg_note"] = ""
     if n < 3 or np.ptp(m) == 0.0:
         return out
     slope, intercept, stderr, p = _ols(m, d)
@@ -188,12 +218,22 @@ def proportional_bias(test, reference, *, confidence: float = 0.95) -> dict:
     )
     abs_resid = np.abs(d - (intercept + slope * m))
     c1, c0, _, _ = _ols(m, abs_resid)
+    m_min, m_max = float(m.min()), float(m.max())
+    valid = positive_spread_range(c0, c1, m_min, m_max)
+    if valid is None:
+        out["reg_note"] = NOT_POSITIVE_NOTE
+        return out
+    if valid != (m_min, m_max):
+        out["reg_note"] = (f"regression-based limits valid only for means {valid[0]:.4g} to {valid[1]:.4g} "
+                           "(fitted SD of the differences not positive beyond)")
     k = _z(confidence) * math.sqrt(math.pi / 2.0)
     out.update(
         reg_loa_intercept_low=intercept - k * c0,
         reg_loa_slope_low=slope - k * c1,
         reg_loa_intercept_high=intercept + k * c0,
         reg_loa_slope_high=slope + k * c1,
+        reg_loa_m_min=valid[0],
+        reg_loa_m_max=valid[1],
     )
     return out
 
@@ -225,138 +265,11 @@ def ratio_limits(test, reference, *, confidence: float = 0.95) -> dict:
     return out
 
 
-def multi_night_limits(diff, participant, *, confidence: float = 0.95) -> dict:
-    """Limits of agreement corrected for several nights per participant.
-
-    Bland & Altman 2007 (J Biopharm Stat 17:571–582; from memory): one-way
-    ANOVA of the differences by participant, σ²_w = MS_within,
-    σ²_b = (MS_between − MS_within) / ((N² − Σmᵢ²)/((n − 1)·N)) truncated at 0,
-    SD = √(σ²_b + σ²_w), limits = mean difference ± z·SD. With one night per
-    participant the naive SD is returned, with a note.
-    """
-    d = np.asarray(diff, dtype=float).ravel()
-    ids = np.asarray(participant, dtype=object).ravel()
-    if ids.shape != d.shape:
-        raise ValueError(
-            f"participant must give one ID per night, got {ids.size} IDs for {d.size} nights"
-        )
-    keep = np.isfinite(d)
-    d, ids = d[keep], ids[keep]
-    if pd.isna(ids).any():
-        raise ValueError(f"participant ID missing for {int(pd.isna(ids).sum())} night(s)")
-    codes, _ = pd.factorize(ids)
-    return _multi_night_limits(d, codes, confidence)
-
-
-def _multi_night_limits(d: np.ndarray, codes: np.ndarray, confidence: float) -> dict:
-    """``multi_night_limits`` of finite differences ``d`` whose participants are ``codes``
-    (0, 1, ... in order of first appearance, as ``pd.factorize`` numbers them)."""
-    out = {"mn_sd": _NAN, "mn_loa_low": _NAN, "mn_loa_high": _NAN,
-           "mn_sd_between": _NAN, "mn_sd_within": _NAN, "note": ""}
-    N = d.size
-    if N < 2:
-        return out
-    z = _z(confidence)
-    mean = float(d.mean())
-    n = int(codes.max()) + 1
-    m_i = np.bincount(codes, minlength=n).astype(float)
-    notes = []
-    if n == N:
-        sd = float(d.std(ddof=1))
-        notes.append(ONE_NIGHT_NOTE)
-    elif n == 1:
-        sd = float(d.std(ddof=1))
-        out["mn_sd_within"] = sd
-        notes.append("one participant: between-participant variance not estimable")
-    else:
-        group_mean = np.bincount(codes, weights=d, minlength=n) / m_i
-        ss_between = float(np.sum(m_i * (group_mean - mean) ** 2))
-        ss_within = float(np.sum((d - group_mean[codes]) ** 2))
-        ms_between = ss_between / (n - 1)
-        ms_within = ss_within / (N - n)
-        divisor = (N**2 - float(np.sum(m_i**2))) / ((n - 1) * N)
-        var_between = (ms_between - ms_within) / divisor
-        if var_between < 0:
-            var_between = 0.0
-            notes.append("between-participant variance negative, set to 0")
-        sd = math.sqrt(var_between + ms_within)
-        out["mn_sd_between"] = math.sqrt(var_between)
-        out["mn_sd_within"] = math.sqrt(ms_within)
-    out.update(mn_sd=sd, mn_loa_low=mean - z * sd, mn_loa_high=mean + z * sd)
-    out["note"] = "; ".join(notes)
-    return out
-
-
-def lins_ccc(x, y, *, confidence: float = 0.95) -> dict:
-    """Lin's concordance correlation coefficient with its confidence interval.
-
-    Lin 1989 (Biometrics 45:255–268): ρc = 2·s_xy / (s_x² + s_y² + (x̄ − ȳ)²)
-    with 1/n moments. CI through Fisher's z = atanh(ρc) with the asymptotic
-    variance of Lin 1989 as corrected in Lin 2000 (Biometrics 56:324–325):
-    var(z) = [(1−r²)ρc²/((1−ρc²)r²) + 2ρc³(1−ρc)u²/(r(1−ρc²)²)
-              − ρc⁴u⁴/(2r²(1−ρc²)²)] / (n − 2),  u = (x̄ − ȳ)/√(s_x·s_y).
-    """
-    a, b = _pair(x, y)
-    keep = np.isfinite(a) & np.isfinite(b)
-    a, b = a[keep], b[keep]
-    n = a.size
-    out = {"ccc": _NAN, "ccc_ci_low": _NAN, "ccc_ci_high": _NAN}
-    if n < 2:
-        return out
-    mx, my = a.mean(), b.mean()
-    vx, vy = a.var(), b.var()
-    sxy = float(np.mean((a - mx) * (b - my)))
-    denom = vx + vy + (mx - my) ** 2
-    if denom == 0:
-        return out
-    rc = 2.0 * sxy / denom
-    out["ccc"] = float(rc)
-    if n < 3 or vx == 0 or vy == 0 or abs(rc) >= 1.0:
-        return out
-    r = sxy / math.sqrt(vx * vy)
-    if r == 0:
-        return out
-    u = (mx - my) / math.sqrt(math.sqrt(vx * vy))
-    one = 1.0 - rc**2
-    var_z = (
-        (1 - r**2) * rc**2 / (one * r**2)
-        + 2 * rc**3 * (1 - rc) * u**2 / (r * one**2)
-        - rc**4 * u**4 / (2 * r**2 * one**2)
-    ) / (n - 2)
-    if not np.isfinite(var_z) or var_z < 0:
-        return out
-    zc = math.atanh(rc)
-    half = _z(confidence) * math.sqrt(var_z)
-    out["ccc_ci_low"] = math.tanh(zc - half)
-    out["ccc_ci_high"] = math.tanh(zc + half)
-    return out
-
-
-def icc_a1(ratings: np.ndarray) -> float:
-    """ICC(A,1): two-way, absolute agreement, single measure, of an n targets × k raters matrix.
-
-    McGraw & Wong 1996 case 2A, equal to ICC(2,1) of Shrout & Fleiss 1979
-    (Psychol Bull 86:420–428): (MSR − MSE) / (MSR + (k−1)·MSE + k·(MSC − MSE)/n)
-    from the two-way ANOVA mean squares. Targets with any missing rating are dropped.
-    """
-    r = np.asarray(ratings, dtype=float)
-    if r.ndim != 2:
-        raise ValueError(f"ratings must be a 2-D targets × raters matrix, got shape {r.shape}")
-    r = r[np.all(np.isfinite(r), axis=1)]
-    n, k = r.shape
-    if n < 2 or k < 2:
-        return _NAN
-    grand = r.mean()
-    ss_rows = k * float(np.sum((r.mean(axis=1) - grand) ** 2))
-    ss_cols = n * float(np.sum((r.mean(axis=0) - grand) ** 2))
-    ss_err = float(np.sum((r - grand) ** 2)) - ss_rows - ss_cols
-    msr = ss_rows / (n - 1)
-    msc = ss_cols / (k - 1)
-    mse = ss_err / ((n - 1) * (k - 1))
-    denom = msr + (k - 1) * mse + k * (msc - mse) / n
-    if denom == 0:
-        return _NAN
-    return float((msr - mse) / denom)
+def _blank_row(n: int, n_participants: int, n_inf: int) -> dict:
+    row: dict = dict.fromkeys(AGREEMENT_COLUMNS, _NAN)
+    row.update(dict.fromkeys(TEXT_COLUMNS, ""))
+    row.update(n_nights=n, n_participants=n_participants, by_construction=False, n_inf_dropped=n_inf)
+    return row
 
 
 def agreement(
@@ -366,15 +279,29 @@ def agreement(
     *,
     log_scale: bool = False,
     confidence: float = 0.95,
-) -> dict[str, float | int | str]:
+    loa_ci: str = "exact",
+    replicates: int = BOOTSTRAP_REPLICATES,
+    seed: int = BOOTSTRAP_SEED,
+    by_construction: str = "",
+) -> dict[str, float | int | str | bool]:
     """All agreement statistics of one parameter for one instrument pair: a row of agreement.csv.
 
-    Pairs where either value is NaN are dropped. Fewer than ``MIN_PAIRS``
-    pairs: counts only, every statistic NaN and a note. Ratio limits
-    (log scale) are computed only when ``log_scale`` is True (for skewed
-    parameters such as SOL and WASO). Regression-based limits are kept only
-    when proportional bias is significant (p < 0.05). ICC(A,1) is computed
-    on the n × 2 matrix [reference, test].
+    Pairs where either value is NaN are dropped, and so are pairs with an
+    infinite value (counted in ``n_inf_dropped``, with a note). Fewer than
+    ``MIN_PAIRS`` pairs: counts only, every statistic NaN and a note.
+    ``by_construction`` (a reason, e.g. "the actigraphy sleep opportunity is
+    the diary's window"): the two values share their source, so the row keeps
+    its counts, ``by_construction`` is True and every statistic is blank.
+    Ratio limits (log scale) only when ``log_scale`` (skewed parameters).
+    Regression-based limits are kept only when proportional bias has
+    p < 0.05. ICC(A,1) is computed on the n × 2 matrix [reference, test].
+
+    One night per participant (or no IDs): the single-level formulas
+    (``bland_altman``, ``proportional_bias``, ``lins_ccc``). Several nights
+    for some participant: bias CI from the participant-level variance, CIs of
+    the limits, corrected limits and CCC by a cluster bootstrap of
+    ``replicates`` resamples (``seed``), proportional bias by the wild
+    cluster bootstrap (``fusion/nested.py``).
     """
     x, y = _pair(test, reference)
     if participant is not None:
@@ -383,47 +310,94 @@ def agreement(
             raise ValueError(
                 f"participant must give one ID per night, got {ids.size} IDs for {x.size} nights"
             )
+    n_inf = int(np.count_nonzero(np.isinf(x) | np.isinf(y)))
     keep = np.isfinite(x) & np.isfinite(y)
     x, y = x[keep], y[keep]
     ids = ids[keep] if participant is not None else np.arange(x.size)
     n = int(x.size)
-    row: dict[str, float | int | str] = dict.fromkeys(AGREEMENT_COLUMNS, _NAN)
-    row["n_nights"] = n
     # participants numbered 0, 1, ... in order of first appearance, -1 for a missing ID (pd.factorize)
     codes = pd.factorize(ids)[0] if participant is not None else np.arange(n)
-    row["n_participants"] = max(int(codes.max()) + 1, 0) if n else 0  # distinct IDs, missing not counted
-    row["note"] = ""
-    if n < MIN_PAIRS:
-        row["note"] = FEW_PAIRS_NOTE
-        return row
+    n_participants = max(int(codes.max()) + 1, 0) if n else 0  # distinct IDs, missing not counted
+    row = _blank_row(n, n_participants, n_inf)
     notes: list[str] = []
+    if n_inf:
+        notes.append(f"{n_inf} pair(s) with an infinite value dropped")
+    if by_construction:
+        row["by_construction"] = True
+        row["note"] = "; ".join([f"{CONSTRUCTION_NOTE} ({by_construction}): no agreement statistics", *notes])
+        return row
+    if n < MIN_PAIRS:
+        row["note"] = "; ".join([FEW_PAIRS_NOTE, *notes])
+        return row
+    if (codes < 0).any():
+        raise ValueError(f"participant ID missing for {int((codes < 0).sum())} night(s)")
+    nested = n_participants < n
     row["mean_test"] = float(x.mean())
     row["mean_reference"] = float(y.mean())
-    ba = bland_altman(x, y, confidence=confidence)
+    ba = bland_altman(x, y, confidence=confidence, loa_ci=loa_ci)
     ba.pop("n")
     row.update(ba)
+    row["bias_ci_method"] = SINGLE_BIAS_METHOD
     prop = proportional_bias(x, y, confidence=confidence)
+    reg_note = prop.pop("reg_note")
     row.update(prop)
-    p = prop["prop_p"]
+    row["prop_bias_method"] = SINGLE_PROP_METHOD
+    d = x - y
+    mn = corrected_limits(d, codes, confidence)
+    mn_note = mn.pop("note")
+    row.update(mn)
+    row.update(lins_ccc(x, y, confidence=confidence))
+    row["ccc_ci_method"] = SINGLE_CCC_METHOD
+    if not nested:
+        for side in ("low", "high"):
+            for end in ("low", "high"):
+                row[f"mn_loa_{side}_ci_{end}"] = row[f"loa_{side}_ci_{end}"]
+        row["mn_loa_ci_method"] = row["loa_ci_method"]
+    else:
+        _nested_intervals(row, x, y, codes, confidence=confidence, replicates=replicates, seed=seed, notes=notes)
+    if mn_note:
+        notes.insert(0, mn_note)
+    p = row["prop_p"]
     if np.isfinite(p) and p < PROPORTIONAL_P:
         notes.append(f"proportional bias (p={p:.3g})")
+        if reg_note:
+            notes.append(reg_note)
     else:
-        for key in ("reg_loa_intercept_low", "reg_loa_slope_low",
-                    "reg_loa_intercept_high", "reg_loa_slope_high"):
-            row[key] = _NAN
+        row.update(dict.fromkeys(_REG_KEYS, _NAN))
     if log_scale:
         ratio = ratio_limits(x, y, confidence=confidence)
         if ratio.pop("note"):
             notes.append(RATIO_NOTE)
         row.update(ratio)
-    if (codes < 0).any():
-        raise ValueError(f"participant ID missing for {int((codes < 0).sum())} night(s)")
-    mn = _multi_night_limits(x - y, codes, confidence)
-    mn_note = mn.pop("note")
-    if mn_note:
-        notes.append(mn_note)
-    row.update(mn)
-    row.update(lins_ccc(x, y, confidence=confidence))
     row["icc"] = icc_a1(np.column_stack([y, x]))
     row["note"] = "; ".join(notes)
     return row
+
+
+_NESTED_KEYS = ("bias_ci_low", "bias_ci_high", "loa_low_ci_low", "loa_low_ci_high", "loa_high_ci_low",
+                "loa_high_ci_high", "mn_loa_low_ci_low", "mn_loa_low_ci_high", "mn_loa_high_ci_low",
+                "mn_loa_high_ci_high", "ccc_ci_low", "ccc_ci_high", "prop_slope_ci_low", "prop_slope_ci_high",
+                "prop_p")
+
+
+def _nested_intervals(row: dict, x: np.ndarray, y: np.ndarray, codes: np.ndarray, *, confidence: float,
+                      replicates: int, seed: int, notes: list[str]) -> None:
+    """Replace the single-level intervals and test of ``row`` by the participant-level ones (fusion/nested.py)."""
+    row.update(dict.fromkeys(_NESTED_KEYS, _NAN))
+    n = int(codes.max()) + 1
+    if n < 2:
+        for key in ("bias_ci_method", "loa_ci_method", "mn_loa_ci_method", "ccc_ci_method", "prop_bias_method"):
+            row[key] = ""
+        notes.append(ONE_PARTICIPANT_NOTE)
+        return
+    d = x - y
+    row["bias_ci_low"], row["bias_ci_high"] = bias_interval(d, codes, confidence)
+    row["bias_ci_method"] = BIAS_METHOD
+    boot = cluster_bootstrap(x, y, codes, confidence=confidence, replicates=replicates, seed=seed)
+    row.update(boot)
+    row.update(corrected_limit_intervals(d, codes, confidence))
+    row["mn_loa_ci_method"] = MOVER_METHOD
+    row["loa_ci_method"] = row["ccc_ci_method"] = bootstrap_method(replicates)
+    slope = wild_cluster_slope((x + y) / 2.0, d, codes, confidence=confidence, replicates=replicates, seed=seed)
+    row.update(slope)
+    row["prop_bias_method"] = wild_method(n, replicates)

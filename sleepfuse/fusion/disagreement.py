@@ -9,6 +9,10 @@ night lies beyond the limits. The additive limits are used for every
 parameter (also the right-skewed ones, whose ratio limits agreement.csv
 reports as well), so the ratio reads the same way everywhere.
 
+Nights whose two values share their source (``pairs.SHARED_SOURCE``, e.g.
+diary − actigraphy TIB when the actigraphy window is the diary's) agree by
+construction and are never ranked.
+
 Likely reasons, checked in this order and all listed when several apply:
 
 - ``non-wear``: the pair involves actigraphy and that night's actigraphy row
@@ -34,7 +38,7 @@ from typing import Iterable
 import numpy as np
 import pandas as pd
 
-from .pairs import paired_nights, shared_parameters
+from .pairs import SHARED_SOURCE, paired_nights, shared_parameters
 
 PSG_MARKER_RULE = "lights off/on markers"
 MAD_SCALE = 1.4826  # 1 / Phi^-1(3/4): MAD -> SD under normality
@@ -99,7 +103,7 @@ def rank_disagreements(
     paired = paired_nights(nights, test, reference)
     t = paired[f"{parameter}_test"].to_numpy(float)
     r = paired[f"{parameter}_ref"].to_numpy(float)
-    ok = np.isfinite(t) & np.isfinite(r)
+    ok = np.isfinite(t) & np.isfinite(r) & ~_identical_by_construction(nights, paired, test, reference, parameter)
     paired, t, r = paired[ok], t[ok], r[ok]
     diff = t - r
     bias, low, high = _limits(agreement, f"{test}-{reference}", parameter)
@@ -120,6 +124,18 @@ def rank_disagreements(
     key = np.abs(ratio) if by == "relative" and np.isfinite(ratio).any() else np.abs(diff)
     order = np.lexsort((-np.abs(diff), -np.nan_to_num(key, nan=-np.inf)))
     return out.iloc[order].reset_index(drop=True)[DISAGREEMENT_COLUMNS]
+
+
+def _identical_by_construction(nights: pd.DataFrame, paired: pd.DataFrame, test: str, reference: str,
+                                parameter: str) -> np.ndarray:
+    """Paired nights whose two values share their source (pairs.SHARED_SOURCE): never ranked."""
+    found = SHARED_SOURCE.get((test, reference, parameter))
+    if found is None or "window_rule" not in nights.columns or paired.empty:
+        return np.zeros(len(paired), dtype=bool)
+    source, rule, _ = found
+    rows = nights[(nights["source"] == source) & (nights["window_rule"] == rule)]
+    shared = set(zip(rows["participant"], rows["night"]))
+    return np.array([k in shared for k in zip(paired["participant"], paired["night"])], dtype=bool)
 
 
 def _reasons(nights: pd.DataFrame, ranked: pd.DataFrame, test: str, reference: str, parameter: str,

@@ -7,9 +7,31 @@ import pandas as pd
 
 from sleepfuse.model.definitions import PAIRS, PARAMETERS, pair_name
 from ..scoring.nights import SOURCE_PARAMETERS
-from .agreement import AGREEMENT_COLUMNS, agreement
+from ..scoring.opportunity import RULE_DIARY
+from .agreement import AGREEMENT_COLUMNS, BOOTSTRAP_REPLICATES, BOOTSTRAP_SEED, agreement
 
 AGREEMENT_TABLE_COLUMNS = ["parameter", "pair", "unit", *AGREEMENT_COLUMNS]
+
+SHARED_SOURCE: dict[tuple[str, str, str], tuple[str, str, str]] = {
+    # (test, reference, parameter): (source whose window_rule decides, that rule, why the values are identical)
+    ("diary", "actigraphy", "tib_min"): ("actigraphy", RULE_DIARY, "the actigraphy sleep opportunity is the diary's window"),
+}
+"""Pairs and parameters whose two values share their source on a night (then identical by construction)."""
+
+
+def shared_source_nights(nights: pd.DataFrame, test: str, reference: str, parameter: str,
+                         test_rows: np.ndarray, reference_rows: np.ndarray) -> tuple[np.ndarray, str]:
+    """Per paired night (rows of ``nights``): True where both values come from one source; and the reason.
+
+    Decided by the night table's ``window_rule`` (SHARED_SOURCE); a table
+    without that column has no such nights.
+    """
+    found = SHARED_SOURCE.get((test, reference, parameter))
+    if found is None or "window_rule" not in nights.columns:
+        return np.zeros(len(test_rows), dtype=bool), ""
+    source, rule, why = found
+    rows = test_rows if source == test else reference_rows
+    return nights["window_rule"].to_numpy(dtype=object)[rows] == rule, why
 
 
 def shared_parameters(test: str, reference: str) -> list[str]:
@@ -80,8 +102,15 @@ def paired_nights(nights: pd.DataFrame, test: str, reference: str, keys: _NightK
     return pd.DataFrame(data)
 
 
-def agreement_table(nights: pd.DataFrame, *, confidence: float = 0.95) -> pd.DataFrame:
-    """agreement.csv: Bland–Altman and friends per parameter and pair (differences test − reference)."""
+def agreement_table(nights: pd.DataFrame, *, confidence: float = 0.95, loa_ci: str = "exact",
+                    replicates: int = BOOTSTRAP_REPLICATES, seed: int = BOOTSTRAP_SEED) -> pd.DataFrame:
+    """agreement.csv: Bland–Altman and friends per parameter and pair (differences test − reference).
+
+    Where a pair and parameter share their source on every paired night
+    (SHARED_SOURCE) the row is marked ``by_construction`` with blank
+    statistics; where they share it on some nights, those nights are left out
+    and the note says how many.
+    """
     rows = []
     keys = _NightKeys(nights) if not nights.empty else None
     for test, reference in PAIRS:
@@ -101,6 +130,19 @@ def agreement_table(nights: pd.DataFrame, *, confidence: float = 0.95) -> pd.Dat
                 left, right = found
                 column = nights[param].to_numpy(float)
                 t, r, ids = column[left], column[right], keys.who[left]
-            stats = agreement(t, r, ids, log_scale=info.skewed, confidence=confidence)
+            why, dropped = "", 0
+            if found is not None and paired is None:
+                shared, reason = shared_source_nights(nights, test, reference, param, *found)
+                usable = np.isfinite(t) & np.isfinite(r)
+                if shared.any() and (shared | ~usable).all():
+                    why = reason
+                elif shared.any():
+                    dropped = int(np.count_nonzero(shared & usable))
+                    t, r, ids = t[~shared], r[~shared], ids[~shared]
+            stats = agreement(t, r, ids, log_scale=info.skewed, confidence=confidence, loa_ci=loa_ci,
+                              replicates=replicates, seed=seed, by_construction=why)
+            if dropped:
+                note = f"{dropped} night(s) identical by construction left out ({reason})"
+                stats["note"] = f"{stats['note']}; {note}" if stats["note"] else note
             rows.append({"parameter": param, "pair": pair_name(test, reference), "unit": info.unit, **stats})
     return pd.DataFrame(rows, columns=AGREEMENT_TABLE_COLUMNS)
