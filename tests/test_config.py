@@ -40,6 +40,13 @@ def test_reads_study_toml(tmp_path):
         ({"study": {"participant_pattern": "("}}, "study.participant_pattern", "regular expression"),
         ({"scoring": {"max_invalid_pct": 150}}, "scoring.max_invalid_pct", "0 to 100"),
         ({"diary": {"columns": {"bedtimes": "x"}}}, "diary.columns", "bedtime"),
+        ({"actigraphy": {"sadeh_scale": -2}}, "actigraphy.sadeh_scale", "positive"),
+        ({"actigraphy": {"webster_order": "backwards"}}, "actigraphy.webster_order", "sequential, parallel"),
+        ({"actigraphy": {"scale_for": 1.0}}, "actigraphy.scale_for", "keys"),
+        ({"agreement": {"loa_ci": "wide"}}, "agreement.loa_ci", "exact, approximate"),
+        ({"agreement": {"bootstrap_replicates": 10}}, "agreement.bootstrap_replicates", "100 to 100000"),
+        ({"agreement": {"bootstrap_replicates": 1000.5}}, "agreement.bootstrap_replicates", "whole number"),
+        ({"agreement": {"bootstrap_seed": True}}, "agreement.bootstrap_seed", "whole number"),
     ],
 )
 def test_bad_values_name_key_value_and_allowed(tmp_path, data, key, fragment):
@@ -47,6 +54,17 @@ def test_bad_values_name_key_value_and_allowed(tmp_path, data, key, fragment):
         build_config(tmp_path, data)
     msg = str(info.value)
     assert key in msg and fragment in msg
+
+
+def test_per_algorithm_count_scales_and_agreement_keys(tmp_path):
+    (tmp_path / "study.toml").write_text(
+        "[actigraphy]\ncount_scale = 0.5\nsadeh_scale = 2.0\nwebster_order = \"parallel\"\n"
+        "[agreement]\nloa_ci = \"approximate\"\nbootstrap_replicates = 500\nbootstrap_seed = 7\n"
+    )
+    cfg = load_config(tmp_path)
+    assert cfg.actigraphy.scale_for("sadeh") == 2.0 and cfg.actigraphy.scale_for("cole-kripke") == 0.5
+    assert cfg.actigraphy.webster_order == "parallel"
+    assert (cfg.agreement.loa_ci, cfg.agreement.bootstrap_replicates, cfg.agreement.bootstrap_seed) == ("approximate", 500, 7)
 
 
 def test_bad_toml_syntax(tmp_path):

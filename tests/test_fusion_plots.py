@@ -20,7 +20,7 @@ def _proportional_case():
     ids = np.repeat([f"P{i:02d}" for i in range(10)], nights)
     group = np.repeat(np.arange(10), nights)
     psg = rng.normal(390, 45, 10)[group] + rng.normal(0, 15, ids.size)
-    act = psg * 1.2 - 50 + rng.normal(0, 10, ids.size) + (group % 3) * 12
+    act = psg * 1.3 - 90 + rng.normal(0, 10, ids.size) + (group % 3) * 12  # p < 0.05 also with nesting
     return act, psg, ids
 
 

@@ -55,11 +55,25 @@ def test_epochs_to_minutes_nan_minute_and_bad_epoch():
 # ---------------------------------------------------------------- Cole–Kripke
 
 
-def test_cole_kripke_coefficient_sets():
-    # Cole et al. 1992 1-min set (confirmed against a secondary description of the paper)
-    assert COLE_KRIPKE_COEFFICIENTS["1min-p0.001"] == (0.001, (106, 54, 58, 76, 230, 74, 67))
-    # other circulating 1-min set (from memory)
-    assert COLE_KRIPKE_COEFFICIENTS["1min-p0.00001"] == (0.00001, (404, 598, 326, 441, 1408, 508, 350))
+def test_cole_kripke_index_worked_from_the_published_weights():
+    # Source: Cole et al. 1992, 1-min set: D = 0.001 (106 A-4 + 54 A-3 + 58 A-2 + 76 A-1 + 230 A0 + 74 A+1
+    # + 67 A+2), the weights typed here from the paper's equation (confirmed against a secondary
+    # description), not read from the module. Counts 0, 3, 0, 12, 5, 0, 8, 2, 0, 1.
+    a = np.array([0, 3, 0, 12, 5, 0, 8, 2, 0, 1], dtype=float)
+    # minute 4: A-4..A+2 = 0, 3, 0, 12, 5, 0, 8 -> 0 + 162 + 0 + 912 + 1150 + 0 + 536 = 2760 -> 2.76 (wake)
+    # minute 6: A-4..A+2 = 0, 12, 5, 0, 8, 2, 0 -> 0 + 648 + 290 + 0 + 1840 + 148 + 0 = 2926 -> 2.926
+    # minute 9: A-4..A+2 = 0, 8, 2, 0, 1, (0), (0) -> 0 + 432 + 116 + 0 + 230 = 778 -> 0.778 (sleep)
+    # minute 0: (0)x4, 0, 3, 0 -> 74 x 3 = 222 -> 0.222
+    d = cole_kripke_index(a)
+    assert d[4] == pytest.approx(2.760)
+    assert d[6] == pytest.approx(2.926)
+    assert d[9] == pytest.approx(0.778)
+    assert d[0] == pytest.approx(0.222)
+    # the other circulating 1-min set (P = 0.00001; 404, 598, 326, 441, 1408, 508, 350; from memory), minute 4:
+    # 0 + 1794 + 0 + 5292 + 7040 + 0 + 2800 = 16926 -> 0.16926
+    assert cole_kripke_index(a, coefficients="1min-p0.00001")[4] == pytest.approx(0.16926)
+    np.testing.assert_array_equal(cole_kripke(a, webster=False)[[0, 4, 6, 9]], [True, False, False, True])
+    assert set(COLE_KRIPKE_COEFFICIENTS) == {"1min-p0.001", "1min-p0.00001"}
 
 
 def test_cole_kripke_index_hand_worked():
@@ -90,11 +104,12 @@ def test_cole_kripke_edges_zero_padded_and_scale():
     np.testing.assert_array_equal(cole_kripke(a, webster=False), [False, True, True, True, False, True])
 
 
-def test_cole_kripke_nan_minute_is_wake_and_neighbours_see_zero():
+def test_cole_kripke_nan_minute_is_not_sleep_and_neighbours_see_zero():
     a = np.array([0, 0, np.nan, 0, 0], dtype=float)
     d = cole_kripke_index(a)
     assert math.isnan(d[2]) and np.all(d[[0, 1, 3, 4]] == 0)
     np.testing.assert_array_equal(cole_kripke(a, webster=False), [True, True, False, True, True])
+    np.testing.assert_array_equal(cole_kripke(a), [True, True, False, True, True])
 
 
 def test_cole_kripke_rejects_unknown_set():
@@ -165,6 +180,72 @@ def test_webster_series_edges_are_not_wake_flanks():
     assert webster_rescore(np.zeros(0, bool)).size == 0
 
 
+# Missing minutes are neither sleep nor wake in any rule (SLEEP_PARAMETERS.md; issue 13).
+
+
+def test_webster_gap_inside_sleep_rescores_nothing():
+    # 40 min sleep, a 20-min gap of missing counts, 40 min sleep: before the fix the gap counted as
+    # >= 15 min of wake and the 4 minutes after it were rescored wake (TST 96 / WASO 4 / NWAK 1).
+    counts = np.r_[np.zeros(40), np.full(20, np.nan), np.zeros(40)]
+    out = cole_kripke(counts)
+    assert out[:40].all() and out[60:].all() and not out[40:60].any()
+    from sleepfuse.scoring.parameters import sleep_parameters
+    from sleepfuse.stages import Stage
+
+    codes = np.where(out, Stage.SLEEP, Stage.WAKE).astype(np.int8)
+    codes[40:60] = Stage.UNSCORED
+    p = sleep_parameters(codes, 60.0)
+    assert (p["tst_min"], p["waso_min"], p["nwak"]) == (80.0, 0.0, 0.0)
+
+
+def test_webster_gap_edges():
+    # sleep right after a gap (first minute after its edge) stays sleep
+    unknown = np.zeros(20, bool)
+    unknown[:5] = True
+    s = np.r_[np.zeros(5, bool), np.ones(15, bool)]
+    out = webster_rescore(s, unknown)
+    assert out[5:].all() and not out[:5].any()
+    # wake before a gap does not reach across it: W10, gap 3, S20 -> the sleep keeps its head
+    s = series((1, 10), (0, 10), (0, 3), (1, 20))
+    unknown = np.zeros(s.size, bool)
+    unknown[20:23] = True
+    out = webster_rescore(s, unknown)
+    assert out[23:].all()
+    # ... but wake ending exactly at the sleep run's start still counts (control: no gap)
+    out2 = webster_rescore(series((1, 10), (0, 13), (1, 20)))
+    assert not out2[23:26].any() and out2[26:].all()
+    # a 5-min sleep bout between two gaps is kept (it was wiped out as "flanked by wake")
+    s = series((1, 30), (0, 15), (1, 5), (0, 15), (1, 30))
+    unknown = np.zeros(s.size, bool)
+    unknown[30:45] = unknown[50:65] = True
+    out = webster_rescore(s, unknown)
+    assert out[45:50].all() and out[:30].all() and out[65:].all() and not out[unknown].any()
+    # control: the same bout between two real wake runs of 15 min is rescored (rules 3 then 4)
+    assert not webster_rescore(s)[45:50].any()
+    # a wake run that is cut by a gap is measured up to the gap: W3 | gap | W3 then sleep -> only 3 min
+    s = series((1, 10), (0, 3), (0, 2), (0, 3), (1, 10))
+    unknown = np.zeros(s.size, bool)
+    unknown[13:15] = True
+    out = webster_rescore(s, unknown)
+    assert out[18:].all()
+
+
+def test_webster_order_option():
+    # S30 W10 S9 W10 S30. Sequential (default): rule 2 cuts 3 min, the 6 left lie between 13 and 10 min
+    # of wake -> rule 4 -> all wake. Parallel: on the original runs the 9-min run is not <= 6 -> only the
+    # 3-min cut of rule 2 (and the 3 after the second W10).
+    s = series((1, 30), (0, 10), (1, 9), (0, 10), (1, 30))
+    seq = webster_rescore(s)
+    par = webster_rescore(s, order="parallel")
+    assert not seq[40:49].any()
+    assert not par[40:43].any() and par[43:49].all()
+    assert par.sum() > seq.sum()
+    with pytest.raises(ValueError, match="webster order"):
+        webster_rescore(s, order="other")
+    ck = score_sleep_wake(np.zeros(60), 60, ActigraphySection(webster_order="parallel"))
+    assert ck.all()
+
+
 def test_cole_kripke_with_webster_end_to_end():
     counts = np.r_[np.full(30, 0.0), np.full(20, 50.0), np.full(40, 0.0)]
     raw = cole_kripke(counts, webster=False)
@@ -219,6 +300,15 @@ def test_sadeh_still_is_sleep_active_is_wake():
     assert not sadeh(np.full(20, 250.0)).any()
 
 
+def test_sadeh_nat_edges_50_and_100():
+    # Sadeh et al. 1994: NAT counts epochs with 50 <= count < 100, so 50 counts and 100 does not.
+    window = np.zeros(11)
+    for value, expected in ((49.0, 0), (50.0, 1), (99.0, 1), (99.999, 1), (100.0, 0), (150.0, 0)):
+        c = window.copy()
+        c[5] = value
+        assert sadeh_terms(c)["nat"][5] == expected, value
+
+
 def test_sadeh_nan_minute():
     c = np.zeros(12)
     c[6] = np.nan
@@ -242,6 +332,14 @@ def test_score_sleep_wake_dispatch():
     np.testing.assert_array_equal(ck2, cole_kripke(minutes, coefficients="1min-p0.00001", count_scale=2.0, webster=False))
     sd = score_sleep_wake(counts, 30, ActigraphySection(algorithm="sadeh", sadeh_cap=200.0))
     np.testing.assert_array_equal(sd, sadeh(minutes, cap=200.0))
+    # per-algorithm count scales; the shared count_scale is the default of both
+    both = ActigraphySection(count_scale=0.5, cole_kripke_scale=2.0)
+    np.testing.assert_array_equal(score_sleep_wake(counts, 30, both), cole_kripke(minutes, count_scale=2.0))
+    both.algorithm = "sadeh"
+    np.testing.assert_array_equal(score_sleep_wake(counts, 30, both), sadeh(minutes * 0.5))
+    both.sadeh_scale = 3.0
+    np.testing.assert_array_equal(score_sleep_wake(counts, 30, both), sadeh(minutes * 3.0))
+    assert ActigraphySection(count_scale=0.25).scale_for("cole-kripke") == 0.25
     assert ck.shape == (600,)
     with pytest.raises(ValueError, match="algorithm"):
         score_sleep_wake(counts, 30, ActigraphySection(algorithm="other"))

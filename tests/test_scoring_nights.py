@@ -168,3 +168,22 @@ def test_window_times_written_as_pandas_isoformat():
                 assert _iso(t) == t.isoformat()
             t = pd.Timestamp("1900-01-01 00:00:00.000000001").as_unit("ns")  # nanoseconds: pandas' own digits
             assert _iso(t) == t.isoformat()
+
+
+def test_tib_is_exact_when_lights_fall_off_the_epoch_grid(tmp_path):
+    # AASM total recording time = lights off to lights on, in elapsed time. Lights off 10 s and lights on
+    # 30 s after an epoch boundary: 94 min 40 s = 94.667 min (whole epochs would give 95.0).
+    root = _study(tmp_path)
+    stages = ["Sleep stage W"] * 10 + ["Sleep stage 2"] * 170 + ["Sleep stage W"] * 20
+    anns = [(10.0, None, "Lights off"), (5690.0, None, "Lights on")]
+    anns += [(30.0 * i, 30.0, text) for i, text in enumerate(stages)]
+    write_edf_plus(root / "psg" / "Z1_n.edf", start=dt.datetime(2026, 5, 1, 23, 0), annotations=anns,
+                   duration_s=6000.0)
+    row = run_study(root).nights.iloc[0]
+    assert row.tib_min == (5690.0 - 10.0) / 60.0
+    # SOL from lights off to the first sleep epoch (starts at 300 s): 290 s; terminal wake from the end of the
+    # last sleep epoch (5400 s) to lights on: 290 s; so TIB = SOL + SPT + terminal wake exactly.
+    assert abs(row.sol_min - 290.0 / 60.0) < 1e-12 and abs(row.terminal_wake_min - 290.0 / 60.0) < 1e-12
+    assert row.tst_min == 85.0 and row.spt_min == 85.0
+    assert abs(row.sol_min + row.spt_min + row.terminal_wake_min - row.tib_min) < 1e-12
+    assert row.se_pct == 100.0 * 85.0 / row.tib_min

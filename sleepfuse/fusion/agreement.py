@@ -22,16 +22,12 @@ from .concordance import icc_a1, lins_ccc
 from .limits import NOT_POSITIVE_NOTE, limit_intervals, positive_spread_range
 from .nested import (
     BIAS_METHOD,
-    ONE_NIGHT_NOTE,
-    ONE_PARTICIPANT_NOTE,
-    bias_interval,
     MOVER_METHOD,
+    ONE_NIGHT_NOTE,
     bootstrap_method,
-    cluster_bootstrap,
-    corrected_limit_intervals,
     corrected_limits,
     multi_night_limits,
-    wild_cluster_slope,
+    nested_intervals,
     wild_method,
 )
 from .quantiles import normal_quantile as _z
@@ -265,6 +261,17 @@ def ratio_limits(test, reference, *, confidence: float = 0.95) -> dict:
     return out
 
 
+def agreement_provenance(loa_ci: str, replicates: int, seed: int) -> dict[str, str | int]:
+    """provenance.json's "agreement_methods": the method of every interval and test in agreement.csv."""
+    single = limit_intervals(0.0, 1.0, 3, method=loa_ci)["method"]
+    return {"single_level": f"bias CI {SINGLE_BIAS_METHOD}; limits CI {single}; CCC CI {SINGLE_CCC_METHOD}; "
+                            f"proportional bias {SINGLE_PROP_METHOD}",
+            "nested_nights": f"bias CI {BIAS_METHOD}; limits and CCC CIs {bootstrap_method(replicates)}; "
+                             f"corrected limits CI {MOVER_METHOD}; proportional bias {wild_method(99, replicates)} "
+                             "(all sign vectors up to 12 participants)",
+            "bootstrap_replicates": replicates, "bootstrap_seed": seed}
+
+
 def _blank_row(n: int, n_participants: int, n_inf: int) -> dict:
     row: dict = dict.fromkeys(AGREEMENT_COLUMNS, _NAN)
     row.update(dict.fromkeys(TEXT_COLUMNS, ""))
@@ -354,7 +361,7 @@ def agreement(
                 row[f"mn_loa_{side}_ci_{end}"] = row[f"loa_{side}_ci_{end}"]
         row["mn_loa_ci_method"] = row["loa_ci_method"]
     else:
-        _nested_intervals(row, x, y, codes, confidence=confidence, replicates=replicates, seed=seed, notes=notes)
+        nested_intervals(row, x, y, codes, confidence=confidence, replicates=replicates, seed=seed, notes=notes)
     if mn_note:
         notes.insert(0, mn_note)
     p = row["prop_p"]
@@ -372,32 +379,3 @@ def agreement(
     row["icc"] = icc_a1(np.column_stack([y, x]))
     row["note"] = "; ".join(notes)
     return row
-
-
-_NESTED_KEYS = ("bias_ci_low", "bias_ci_high", "loa_low_ci_low", "loa_low_ci_high", "loa_high_ci_low",
-                "loa_high_ci_high", "mn_loa_low_ci_low", "mn_loa_low_ci_high", "mn_loa_high_ci_low",
-                "mn_loa_high_ci_high", "ccc_ci_low", "ccc_ci_high", "prop_slope_ci_low", "prop_slope_ci_high",
-                "prop_p")
-
-
-def _nested_intervals(row: dict, x: np.ndarray, y: np.ndarray, codes: np.ndarray, *, confidence: float,
-                      replicates: int, seed: int, notes: list[str]) -> None:
-    """Replace the single-level intervals and test of ``row`` by the participant-level ones (fusion/nested.py)."""
-    row.update(dict.fromkeys(_NESTED_KEYS, _NAN))
-    n = int(codes.max()) + 1
-    if n < 2:
-        for key in ("bias_ci_method", "loa_ci_method", "mn_loa_ci_method", "ccc_ci_method", "prop_bias_method"):
-            row[key] = ""
-        notes.append(ONE_PARTICIPANT_NOTE)
-        return
-    d = x - y
-    row["bias_ci_low"], row["bias_ci_high"] = bias_interval(d, codes, confidence)
-    row["bias_ci_method"] = BIAS_METHOD
-    boot = cluster_bootstrap(x, y, codes, confidence=confidence, replicates=replicates, seed=seed)
-    row.update(boot)
-    row.update(corrected_limit_intervals(d, codes, confidence))
-    row["mn_loa_ci_method"] = MOVER_METHOD
-    row["loa_ci_method"] = row["ccc_ci_method"] = bootstrap_method(replicates)
-    slope = wild_cluster_slope((x + y) / 2.0, d, codes, confidence=confidence, replicates=replicates, seed=seed)
-    row.update(slope)
-    row["prop_bias_method"] = wild_method(n, replicates)

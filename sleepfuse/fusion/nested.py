@@ -294,3 +294,32 @@ def corrected_limit_intervals(d: np.ndarray, codes: np.ndarray, confidence: floa
     high, low = mu + z * sd, mu - z * sd
     return {"mn_loa_high_ci_low": high - down, "mn_loa_high_ci_high": high + up,
             "mn_loa_low_ci_low": low - up, "mn_loa_low_ci_high": low + down}
+
+
+_NESTED_KEYS = ("bias_ci_low", "bias_ci_high", "loa_low_ci_low", "loa_low_ci_high", "loa_high_ci_low",
+                "loa_high_ci_high", "mn_loa_low_ci_low", "mn_loa_low_ci_high", "mn_loa_high_ci_low",
+                "mn_loa_high_ci_high", "ccc_ci_low", "ccc_ci_high", "prop_slope_ci_low", "prop_slope_ci_high",
+                "prop_p")
+
+
+def nested_intervals(row: dict, x: np.ndarray, y: np.ndarray, codes: np.ndarray, *, confidence: float,
+                      replicates: int, seed: int, notes: list[str]) -> None:
+    """Replace the single-level intervals and test of ``row`` by the participant-level ones (fusion/nested.py)."""
+    row.update(dict.fromkeys(_NESTED_KEYS, _NAN))
+    n = int(codes.max()) + 1
+    if n < 2:
+        for key in ("bias_ci_method", "loa_ci_method", "mn_loa_ci_method", "ccc_ci_method", "prop_bias_method"):
+            row[key] = ""
+        notes.append(ONE_PARTICIPANT_NOTE)
+        return
+    d = x - y
+    row["bias_ci_low"], row["bias_ci_high"] = bias_interval(d, codes, confidence)
+    row["bias_ci_method"] = BIAS_METHOD
+    boot = cluster_bootstrap(x, y, codes, confidence=confidence, replicates=replicates, seed=seed)
+    row.update(boot)
+    row.update(corrected_limit_intervals(d, codes, confidence))
+    row["mn_loa_ci_method"] = MOVER_METHOD
+    row["loa_ci_method"] = row["ccc_ci_method"] = bootstrap_method(replicates)
+    slope = wild_cluster_slope((x + y) / 2.0, d, codes, confidence=confidence, replicates=replicates, seed=seed)
+    row.update(slope)
+    row["prop_bias_method"] = wild_method(n, replicates)

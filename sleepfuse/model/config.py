@@ -16,9 +16,11 @@ from typing import Any
 from sleepfuse.model.errors import ConfigError
 from sleepfuse.model.clock import machine_timezone, zone
 
+LOA_CI_CHOICES = ("exact", "approximate")  # as sleepfuse/fusion/limits.py
 ACTIGRAPHY_ALGORITHMS = ("cole-kripke", "sadeh")
 # Cole–Kripke 1992 1-min coefficient sets (see sleepfuse/scoring/actigraphy.py).
 COLE_KRIPKE_SETS = ("1min-p0.001", "1min-p0.00001")
+WEBSTER_ORDERS = ("sequential", "parallel")
 NONWEAR_RULES = ("auto", "column", "choi", "none")
 STAGE_TARGETS = ("W", "N1", "N2", "N3", "R", "unscored")
 ACTIGRAPHY_COLUMN_KEYS = ("timestamp", "counts", "off_wrist", "marker")
@@ -62,13 +64,23 @@ class PsgSection:
 
 @dataclass
 class ActigraphySection:
+    """[actigraphy]; ``scale_for(algorithm)`` is the count scale that algorithm uses."""
+
     columns: dict[str, str] = field(default_factory=dict)  # timestamp/counts/off_wrist/marker -> CSV name
     algorithm: str = "cole-kripke"
     coefficients: str = "1min-p0.001"
-    count_scale: float = 1.0  # multiply device counts by this before scoring
+    count_scale: float = 1.0  # multiply device counts by this before scoring (both algorithms, unless set below)
+    cole_kripke_scale: float = 0.0  # Cole–Kripke's own count scale; 0 = count_scale
+    sadeh_scale: float = 0.0  # Sadeh's own count scale; 0 = count_scale
     webster: bool = True
+    webster_order: str = "sequential"  # rules 4-5 judge the runs left by rules 1-3 ("parallel": the original runs)
     nonwear: str = "auto"  # auto: column if present, else Choi
     sadeh_cap: float = 300.0
+
+    def scale_for(self, algorithm: str) -> float:
+        """The count scale of ``algorithm``: its own key when set (> 0), else the shared count_scale."""
+        own = self.cole_kripke_scale if algorithm == "cole-kripke" else self.sadeh_scale
+        return own if own > 0 else self.count_scale
 
 
 @dataclass
@@ -89,6 +101,13 @@ class AgreementSection:
     clock_offset_max_min: float = 30.0
     clock_offset_flag_min: float = 5.0
     clock_offset_flag_kappa_gain: float = 0.05  # ... and only if shifting raises kappa by at least this much
+    loa_ci: str = "exact"  # CIs of single-level limits: exact (Carkeet 2015) or approximate (Bland & Altman 1986)
+    bootstrap_replicates: int = 1000  # B of the participant-level bootstrap (nested nights)
+    bootstrap_seed: int = 20261205  # seed of that bootstrap: a run repeats exactly
+
+    def table_options(self) -> dict[str, Any]:
+        """Keyword arguments of ``fusion.pairs.agreement_table`` (the same for batch and the terminal app)."""
+        return {"loa_ci": self.loa_ci, "replicates": self.bootstrap_replicates, "seed": self.bootstrap_seed}
 
 
 @dataclass
@@ -147,6 +166,10 @@ def _check_type(key: str, value: object, default: object, path: Path | None) -> 
         if not isinstance(value, bool):
             _fail(key, value, "true or false", path)
         return value
+    if isinstance(default, int):
+        if isinstance(value, bool) or not isinstance(value, int):
+            _fail(key, value, "a whole number", path)
+        return value
     if isinstance(default, float):
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             _fail(key, value, "a number", path)
@@ -184,7 +207,7 @@ def build_config(root: str | Path, data: dict[str, Any] | None = None, source: P
         target = getattr(cfg, section)
         for key, item in value.items():
             full = f"{section}.{key}"
-            if key == "timezone_from_machine" or not hasattr(target, key):
+            if key == "timezone_from_machine" or key not in vars(target):
                 allowed = [k for k in vars(target) if k != "timezone_from_machine"]
                 _fail(full, item, "keys " + ", ".join(allowed), source)
             setattr(target, key, _check_type(full, item, getattr(target, key), source))
@@ -225,6 +248,10 @@ def build_config(root: str | Path, data: dict[str, Any] | None = None, source: P
     _choice("actigraphy.nonwear", act.nonwear, NONWEAR_RULES, source)
     if act.count_scale <= 0:
         _fail("actigraphy.count_scale", act.count_scale, "a positive number", source)
+    for key in ("cole_kripke_scale", "sadeh_scale"):
+        if getattr(act, key) < 0:
+            _fail(f"actigraphy.{key}", getattr(act, key), "a positive number (0 or absent: count_scale)", source)
+    _choice("actigraphy.webster_order", act.webster_order, WEBSTER_ORDERS, source)
     if act.sadeh_cap <= 0:
         _fail("actigraphy.sadeh_cap", act.sadeh_cap, "a positive number", source)
     for k in cfg.diary.columns:
@@ -242,6 +269,11 @@ def build_config(root: str | Path, data: dict[str, Any] | None = None, source: P
         _fail("agreement.clock_offset_flag_min", ag.clock_offset_flag_min, "zero or more minutes", source)
     if not 0 <= ag.clock_offset_flag_kappa_gain <= 1:
         _fail("agreement.clock_offset_flag_kappa_gain", ag.clock_offset_flag_kappa_gain, "a number from 0 to 1", source)
+    _choice("agreement.loa_ci", ag.loa_ci, LOA_CI_CHOICES, source)
+    if not 100 <= ag.bootstrap_replicates <= 100_000:
+        _fail("agreement.bootstrap_replicates", ag.bootstrap_replicates, "a whole number from 100 to 100000", source)
+    if ag.bootstrap_seed < 0:
+        _fail("agreement.bootstrap_seed", ag.bootstrap_seed, "a whole number, 0 or more", source)
     return cfg
 
 

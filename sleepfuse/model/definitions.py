@@ -21,7 +21,9 @@ _WINDOW = (
 PARAMETERS: dict[str, ParameterInfo] = {
     p.name: p
     for p in [
-        ParameterInfo("tib_min", "min", "Length of the sleep opportunity (AASM total recording time, lights off to lights on). "
+        ParameterInfo("tib_min", "min", "Length of the sleep opportunity (AASM total recording time, lights off to lights on), exact elapsed "
+                      "minutes even when the markers fall between epochs; SOL, LPS and terminal wake are measured from and to the same "
+                      "exact times, so TIB = SOL + SPT + terminal wake. "
                       "The consensus sleep diary (Carney et al. 2012) takes time in bed from 'got into bed' instead: that is in_bed_min here."),
         ParameterInfo("sol_min", "min", "Start of the sleep opportunity to the first epoch of any sleep (AASM sleep latency); diary: as reported.", True),
         ParameterInfo("lps_min", "min", "Start of the sleep opportunity to the first epoch of the first run of 10 min of uninterrupted sleep "
@@ -48,15 +50,37 @@ PARAMETERS: dict[str, ParameterInfo] = {
         ParameterInfo("offwrist_min", "min", "Non-wear minutes in the sleep opportunity (off_wrist column, else the Choi et al. 2011 rule); neither sleep nor wake."),
         ParameterInfo("in_bed_min", "min", "Diary: got into bed to out of bed (consensus sleep diary time in bed)."),
         ParameterInfo("quality", "as entered", "Self-rated sleep quality as entered in the diary (scale as in [diary] quality_scale of study.toml)."),
-        ParameterInfo("is", "ratio 0-1", "Interdaily stability on hourly means, non-wear excluded (Van Someren et al. 1999)."),
-        ParameterInfo("iv", "ratio 0-2", "Intradaily variability on hourly means, non-wear excluded (Van Someren et al. 1999)."),
-        ParameterInfo("m10", "counts/epoch", "Mean activity of the most active 10 consecutive hours of the average day (Van Someren et al. 1999)."),
-        ParameterInfo("l5", "counts/epoch", "Mean activity of the least active 5 consecutive hours of the average day (Van Someren et al. 1999)."),
+        ParameterInfo("is", "ratio 0-1", "Interdaily stability on hourly means in counts per minute, non-wear excluded (Van Someren et al. 1999). "
+                      "With hours missing, the generalised form: IS = sum_h n_h (mean_h - mean)^2 / sum_i (x_i - mean)^2, each clock hour "
+                      "weighted by its number of valid hours n_h (with complete data n_h = n/24 and this is the published formula)."),
+        ParameterInfo("iv", "ratio 0-4", "Intradaily variability on hourly means in counts per minute, non-wear excluded (Van Someren et al. 1999): "
+                      "about 0 for a smooth rhythm, about 2 for noise, up to 4 when every hour alternates. With hours missing, the "
+                      "generalised form: the squared hour-to-hour differences are summed over the m pairs of consecutive valid hours "
+                      "and divided by m (m = n - 1 with complete data)."),
+        ParameterInfo("m10", "counts/min", "Mean activity (counts per minute, whatever the epoch length) of the most active 10 consecutive "
+                      "hours of the average day (Van Someren et al. 1999)."),
+        ParameterInfo("l5", "counts/min", "Mean activity (counts per minute, whatever the epoch length) of the least active 5 consecutive "
+                      "hours of the average day (Van Someren et al. 1999)."),
         ParameterInfo("ra", "ratio 0-1", "Relative amplitude (M10 - L5) / (M10 + L5) (Van Someren et al. 1999)."),
     ]
 }
 
 WINDOW_NOTE = _WINDOW
+
+DEFINITION_CHOICES: dict[str, str] = {
+    "tib_min": "exact elapsed minutes of the sleep opportunity (markers off the epoch grid included); SOL, LPS and "
+               "terminal wake measured from/to the same exact times; stage and sleep minutes count whole epochs",
+    "webster_missing": "missing and non-wear minutes are neither sleep nor wake in every Webster rule",
+    "rhythm_units": "hourly means, M10 and L5 in counts per minute whatever the epoch length",
+    "is_iv_missing_hours": "IS weights each clock hour by its number of valid hours; IV divides by the number of "
+                           "valid consecutive hour pairs; both equal Van Someren et al. 1999 with complete data",
+    "iv_range": "IV lies between 0 and 4 (about 2 for noise)",
+    "agreement_nested": "where a participant has several nights, every interval and test in agreement.csv accounts "
+                        "for the nesting; the *_method columns name the method",
+    "identical_by_construction": "a pair and parameter that share their source on a night (diary - actigraphy TIB "
+                                 "when the actigraphy window is the diary's) get no agreement statistics",
+}
+"""The SLEEP_PARAMETERS.md-level choices of this version, for provenance.json."""
 LABELS = {
     "tib_min": "TIB", "sol_min": "SOL", "lps_min": "LPS", "tst_min": "TST", "spt_min": "SPT", "waso_min": "WASO",
     "terminal_wake_min": "Terminal wake", "se_pct": "Sleep efficiency", "nwak": "Wake bouts",

@@ -32,6 +32,8 @@ from sleepfuse.output.files import atomic_path, write_chunks, write_text
 from sleepfuse.run.cache import library_versions, run_cached
 from sleepfuse.model.config import StudyConfig, load_config
 from sleepfuse.output.csvtext import csv_chunks
+from sleepfuse.model.definitions import DEFINITION_CHOICES
+from sleepfuse.fusion.agreement import agreement_provenance
 from sleepfuse.fusion.epoch_table import epoch_table
 from sleepfuse.fusion.matrix import codebook, participant_matrix
 from sleepfuse.fusion.pairs import agreement_table
@@ -39,7 +41,7 @@ from sleepfuse.run.engine import ParticipantOutcome, input_record, process_pool,
 from sleepfuse.run.participant import plan_jobs
 from sleepfuse.model.qc import QCLog
 from sleepfuse.study.review import REVIEW_FILE, Decision, apply_decisions, load_decisions
-from sleepfuse.scoring.actigraphy import COLE_KRIPKE_COEFFICIENTS
+from sleepfuse.scoring.actigraphy import algorithm_provenance as actigraphy_provenance
 from sleepfuse.scoring.nights import night_table, rhythm_table
 
 OUTPUT_TABLES = ("nights", "agreement", "epochs_agreement", "matrix", "codebook", "qc")
@@ -84,7 +86,7 @@ def build_tables(config: StudyConfig, outcomes: list[ParticipantOutcome], qc: QC
                                 participants=[o.participant for o in outcomes])
     return {
         "nights": nights,
-        "agreement": agreement_table(nights),
+        "agreement": agreement_table(nights, **config.agreement.table_options()),
         "epochs_agreement": epoch_table([r for o in outcomes for r in o.epoch_rows]),
         "matrix": matrix,
         "codebook": codebook(matrix, min_nights=options.min_nights, zscore=options.zscore,
@@ -94,15 +96,8 @@ def build_tables(config: StudyConfig, outcomes: list[ParticipantOutcome], qc: QC
 
 
 def algorithm_provenance(config: StudyConfig) -> dict:
-    act = config.actigraphy
-    out = {"actigraphy_algorithm": act.algorithm, "count_scale": act.count_scale, "nonwear": act.nonwear}
-    if act.algorithm == "cole-kripke":
-        p, weights = COLE_KRIPKE_COEFFICIENTS[act.coefficients]
-        out.update(coefficient_set=act.coefficients, P=p, weights_minus4_to_plus2=list(weights),
-                   webster_rescoring=act.webster, reference="Cole, Kripke et al. 1992, Sleep 15:461-469")
-    else:
-        out.update(sadeh_cap=act.sadeh_cap, reference="Sadeh, Sharkey & Carskadon 1994, Sleep 17:201-207")
-    return out
+    """provenance.json's "algorithm": the sleep/wake algorithm (scoring/actigraphy.py)."""
+    return actigraphy_provenance(config.actigraphy)
 
 
 def _json_default(value):
@@ -188,6 +183,8 @@ def run_batch(
         "study": str(Path(study).resolve()),
         "configuration": config.to_dict(),
         "algorithm": algorithm_provenance(config),
+        "agreement_methods": agreement_provenance(**config.agreement.table_options()),
+        "definitions": DEFINITION_CHOICES,
         "options": {"format": options.format, "plots": options.plots, "report": options.report,
                     "workers": options.workers,
                     "zscore": options.zscore, "min_nights": options.min_nights, "cache": options.cache,

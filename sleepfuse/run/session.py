@@ -186,7 +186,7 @@ class Workspace:
         self.version = getattr(self, "version", -1) + 1  # screens redraw when it changes
         self.decisions = load_decisions(self.root)
         self.nights = apply_decisions(self.base_nights, self.decisions)
-        self.agreement = agreement_table(self.nights)
+        self.agreement = agreement_table(self.nights, **self.config.agreement.table_options())
         self._index = {(p, n, s): i for i, (p, n, s) in
                        enumerate(zip(self.nights["participant"], self.nights["night"], self.nights["source"]))} \
             if not self.nights.empty else {}

@@ -31,9 +31,15 @@ project's search tool:
   counts, the SD's degrees of freedom and the edge handling are NOT stated
   there: cap FROM MEMORY; ddof and edges are our documented choices.
 
-The device counts must be in the units the paper's coefficients expect;
-``count_scale`` (study.toml ``actigraphy.count_scale``) maps them, and it is
-stated in the provenance of every run.
+The device counts must be in the units the paper's coefficients expect. The
+two algorithms were fitted on different devices and count modes, so each has
+its own scale (study.toml ``[actigraphy] cole_kripke_scale``, ``sadeh_scale``;
+unset, both take the shared ``count_scale``); the scale used is stated in the
+provenance of every run.
+
+Missing minutes (NaN) and non-wear minutes are neither sleep nor wake in
+every rule (SLEEP_PARAMETERS.md): Webster rescoring never treats them as
+wake (:func:`webster_rescore`), Sadeh's windows leave them out.
 """
 
 from __future__ import annotations
@@ -169,7 +175,28 @@ def cole_kripke_index(
     return d
 
 
-def webster_rescore(sleep: np.ndarray) -> np.ndarray:
+WEBSTER_ORDERS = ("sequential", "parallel")
+
+
+def _runs(state: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Maximal runs of a non-empty int8 series: (starts, lengths, values)."""
+    b = _run_bounds(state)
+    return b[:-1], np.diff(b), state[b[:-1]]
+
+
+def _neighbour_wake(lengths: np.ndarray, values: np.ndarray, idx: np.ndarray, step: int) -> np.ndarray:
+    """Length of the wake run right before (step −1) or after (step +1) each run ``idx``; 0 if that
+    neighbour is sleep, a missing stretch or the end of the series (neither is wake)."""
+    j = idx + step
+    inside = (j >= 0) & (j < lengths.size)
+    jj = np.clip(j, 0, lengths.size - 1)
+    return np.where(inside & (values[jj] == _WAKE), lengths[jj], 0)
+
+
+_WAKE, _SLEEP, _UNKNOWN = 0, 1, 2
+
+
+def webster_rescore(sleep: np.ndarray, unknown: np.ndarray | None = None, *, order: str = "sequential") -> np.ndarray:
     """Webster rescoring rules on a 1-min sleep (True) / wake (False) series.
 
     Rules (Webster et al. 1982 as applied by Cole et al. 1992; from memory):
@@ -180,50 +207,54 @@ def webster_rescore(sleep: np.ndarray) -> np.ndarray:
     4. a sleep run of ≤ 6 min with ≥ 10 min of wake on each side → wake;
     5. a sleep run of ≤ 10 min with ≥ 20 min of wake on each side → wake.
 
-    Reading implemented: rules 1–3 look at the wake runs of the ORIGINAL
+    Reading implemented: rules 1–3 look at the wake runs of the original
     scoring; of the rules that apply to a wake run the largest k wins, and
     the first min(k, run length) minutes of the sleep run that follows are
-    rescored. Rules 4–5 are then evaluated once, together, on the runs of
-    the series produced by rules 1–3; "each side" means a wake run that is
-    really there (the ends of the series are not wake). Not iterated.
+    rescored. ``order`` (``[actigraphy] webster_order``; the paper's order
+    is not checked, from memory): "sequential" (default) judges rules 4–5
+    once, together, on the runs left by rules 1–3; "parallel" judges them on
+    the original runs (this keeps more sleep on restless nights). Not iterated.
+
+    ``unknown`` minutes (missing counts, non-wear) are neither sleep nor
+    wake in every rule: they are never rescored, a wake run ends at them,
+    and a sleep run next to them has no wake on that side. The ends of the
+    series are not wake either. Returns sleep with unknown minutes False.
     """
+    if order not in WEBSTER_ORDERS:
+        raise ValueError(f"webster order must be one of {', '.join(WEBSTER_ORDERS)}, got {order!r}")
     s = np.asarray(sleep, dtype=bool)
     if s.ndim != 1:
         raise ValueError(f"sleep must be a 1-D array, got shape {s.shape}")
-    out = s.copy()
-    n = s.size
-    if n == 0:
+    state = s.astype(np.int8)
+    if unknown is not None:
+        u = np.asarray(unknown, dtype=bool)
+        if u.shape != s.shape:
+            raise ValueError(f"unknown must have the shape of sleep, got {u.shape} and {s.shape}")
+        state[u] = _UNKNOWN
+    out = state == _SLEEP
+    if s.size == 0:
         return out
-    # Worked on the table of sleep runs [st, en) only: runs alternate, so the
-    # wake run before a sleep run is [end of the previous sleep run (or 0), st)
-    # and the one after it is [en, next sleep start (or n)); a length of 0
-    # there means "no wake run" (an end of the series), as in the rules.
-    b = _run_bounds(s)
-    first = 0 if s[0] else 1  # index of the first sleep run among all runs
-    st, en = b[first:-1:2], b[first + 1 :: 2]
-    if st.size == 0:
+    start, length, value = _runs(state)
+    sl = np.flatnonzero(value == _SLEEP)
+    if sl.size == 0:
         return out
-    length = en - st
-
     # Rules 1-3: k minutes at the head of each sleep run after a qualifying wake run.
-    prev_wake = st - np.concatenate(([0], en[:-1]))
-    k_after = np.zeros(st.size, dtype=np.intp)
+    prev_wake = _neighbour_wake(length, value, sl, -1)
+    k_after = np.zeros(sl.size, dtype=np.intp)
     for min_wake, k in WEBSTER_AFTER_WAKE:  # ascending k: later rules override
         k_after = np.where(prev_wake >= min_wake, k, k_after)
-    cut = np.minimum(k_after, length)  # minutes rescored at the head of each run
-
-    # Rules 4-5 on the runs left by rules 1-3: each sleep run shrinks to
-    # [st + cut, en) (gone if empty); the runs between them are wake.
-    left = cut < length
-    ls, le = st[left] + cut[left], en[left]
-    prev_w = ls - np.concatenate(([0], le[:-1]))
-    next_w = np.concatenate((ls[1:], [n])) - le
-    flanked = np.zeros(ls.size, dtype=bool)
+    cut = np.minimum(k_after, length[sl])
+    _fill_runs(out, start[sl], cut, False)
+    # Rules 4-5 on the runs left by rules 1-3 (sequential) or on the original runs (parallel).
+    judged = state if order == "parallel" else np.where(state == _SLEEP, out.astype(np.int8), state)
+    start2, length2, value2 = _runs(judged)
+    sl2 = np.flatnonzero(value2 == _SLEEP)
+    before = _neighbour_wake(length2, value2, sl2, -1)
+    after = _neighbour_wake(length2, value2, sl2, +1)
+    flanked = np.zeros(sl2.size, dtype=bool)
     for max_sleep, min_wake in WEBSTER_FLANKED:
-        flanked |= (le - ls <= max_sleep) & (prev_w >= min_wake) & (next_w >= min_wake)
-    whole = np.zeros(st.size, dtype=bool)
-    whole[left] = flanked  # a flanked run turns wake from its original start on
-    _fill_runs(out, st, np.where(whole, length, cut), False)
+        flanked |= (length2[sl2] <= max_sleep) & (before >= min_wake) & (after >= min_wake)
+    _fill_runs(out, start2[sl2][flanked], length2[sl2][flanked], False)
     return out
 
 
@@ -233,15 +264,22 @@ def cole_kripke(
     coefficients: str = "1min-p0.001",
     count_scale: float = 1.0,
     webster: bool = True,
+    webster_order: str = "sequential",
+    unknown: np.ndarray | None = None,
 ) -> np.ndarray:
     """Sleep (True) per minute by Cole–Kripke 1992: D < 1 → sleep, D ≥ 1 → wake.
 
-    A NaN minute scores wake (the caller masks it); Webster rescoring
-    (:func:`webster_rescore`) follows when ``webster``.
+    Webster rescoring (:func:`webster_rescore`, ``webster_order``) follows
+    when ``webster``; missing (NaN) minutes and ``unknown`` minutes (e.g.
+    non-wear) are neither sleep nor wake in it, and come back False (the
+    caller masks them).
     """
     d = cole_kripke_index(counts_1min, coefficients=coefficients, count_scale=count_scale)
-    sleep = d < 1.0  # NaN compares False -> wake
-    return webster_rescore(sleep) if webster else sleep
+    missing = np.isnan(d)
+    if unknown is not None:
+        missing = missing | np.asarray(unknown, dtype=bool)
+    sleep = (d < 1.0) & ~missing  # NaN compares False
+    return webster_rescore(sleep, missing, order=webster_order) if webster else sleep
 
 
 def _window_sums(x: np.ndarray, before: int, after: int) -> np.ndarray:
@@ -299,24 +337,62 @@ def sadeh(counts_1min: np.ndarray, *, cap: float = 300.0) -> np.ndarray:
     return ps >= 0.0  # NaN compares False -> wake
 
 
-def score_sleep_wake(counts: np.ndarray, epoch_s: float, settings: "ActigraphySection") -> np.ndarray:
+def score_sleep_wake(counts: np.ndarray, epoch_s: float, settings: "ActigraphySection",
+                     unknown: np.ndarray | None = None) -> np.ndarray:
     """Sleep (True) per MINUTE from raw epoch counts, by the study's algorithm.
 
-    Sums epochs into minutes, multiplies by ``settings.count_scale`` and runs
-    Cole–Kripke (+ Webster when ``settings.webster``) or Sadeh (cap
-    ``settings.sadeh_cap``). NaN minutes score wake; the caller masks them.
+    Sums epochs into minutes, multiplies by the algorithm's count scale
+    (``settings.scale_for``: ``cole_kripke_scale`` / ``sadeh_scale``, else
+    ``count_scale``) and runs Cole–Kripke (+ Webster when ``settings.webster``,
+    in ``settings.webster_order``) or Sadeh (cap ``settings.sadeh_cap``).
+    NaN minutes and ``unknown`` minutes (per minute, e.g. non-wear) are
+    neither sleep nor wake in the Webster rules; they come back False and
+    the caller masks them.
     """
     minutes = epochs_to_minutes(counts, epoch_s)
     algorithm = settings.algorithm
+    scale = settings.scale_for(algorithm)
     if algorithm == "cole-kripke":
         return cole_kripke(
             minutes,
             coefficients=settings.coefficients,
-            count_scale=settings.count_scale,
+            count_scale=scale,
             webster=settings.webster,
+            webster_order=settings.webster_order,
+            unknown=None if unknown is None else np.asarray(unknown, dtype=bool)[: minutes.size],
         )
     if algorithm == "sadeh":
-        if not settings.count_scale > 0:
-            raise ValueError(f"count_scale must be a positive number, got {settings.count_scale!r}")
-        return sadeh(minutes * float(settings.count_scale), cap=settings.sadeh_cap)
+        if not scale > 0:
+            raise ValueError(f"count scale must be a positive number, got {scale!r}")
+        return sadeh(minutes * float(scale), cap=settings.sadeh_cap)
     raise ValueError(f"unknown actigraphy algorithm {algorithm!r}; allowed: cole-kripke, sadeh")
+
+
+WEBSTER_ORDER_TEXT = {
+    "sequential": "rules 4-5 judge the sleep runs left after rules 1-3 (from memory; the paper's order is not checked)",
+    "parallel": "rules 4-5 judge the original sleep runs, as rules 1-3 do (from memory; the paper's order is not checked)",
+}
+MISSING_RULE = "missing and non-wear minutes are neither sleep nor wake in every rule (never rescored, never a wake flank)"
+
+
+def algorithm_provenance(settings: "ActigraphySection") -> dict:
+    """The sleep/wake algorithm of a run as provenance.json states it: coefficients, count scale, rules."""
+    algorithm = settings.algorithm
+    out = {"actigraphy_algorithm": algorithm, "count_scale": settings.scale_for(algorithm),
+           "count_scale_key": _scale_key(settings, algorithm), "nonwear": settings.nonwear,
+           "missing_minutes": MISSING_RULE}
+    if algorithm == "cole-kripke":
+        p, weights = COLE_KRIPKE_COEFFICIENTS[settings.coefficients]
+        out.update(coefficient_set=settings.coefficients, P=p, weights_minus4_to_plus2=list(weights),
+                   webster_rescoring=settings.webster, reference="Cole, Kripke et al. 1992, Sleep 15:461-469")
+        if settings.webster:
+            out.update(webster_order=settings.webster_order, webster_order_reading=WEBSTER_ORDER_TEXT[settings.webster_order],
+                       webster_reference="Webster et al. 1982, Sleep 5:389-399, as applied by Cole et al. 1992 (rules from memory)")
+    else:
+        out.update(sadeh_cap=settings.sadeh_cap, reference="Sadeh, Sharkey & Carskadon 1994, Sleep 17:201-207")
+    return out
+
+
+def _scale_key(settings: "ActigraphySection", algorithm: str) -> str:
+    own = "cole_kripke_scale" if algorithm == "cole-kripke" else "sadeh_scale"
+    return f"actigraphy.{own}" if getattr(settings, own) > 0 else "actigraphy.count_scale"

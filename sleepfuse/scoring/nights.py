@@ -24,7 +24,16 @@ from sleepfuse.model.records import ParticipantRecords, actigraphy_nights, hypno
 from .actigraphy import epochs_to_minutes, score_sleep_wake
 from .diary import DIARY_PARAMETERS, DiaryRowRejected, diary_parameters
 from .nonwear import choi_nonwear
-from .opportunity import Window, cut_window, detector_window, diary_window, marker_window, psg_window
+from .opportunity import (
+    Window,
+    cut_window,
+    detector_window,
+    diary_window,
+    edge_minutes,
+    exact_times,
+    marker_window,
+    psg_window,
+)
 from .parameters import COMMON_PARAMETERS, STAGE_PARAMETERS, sleep_parameters, sleep_parameters_many
 from .rhythm import RHYTHM_PARAMETERS, rest_activity_rhythm
 
@@ -152,6 +161,7 @@ def score_psg(config: StudyConfig, participant: str, h: Hypnogram, qc: QCLog, ou
         note("warning", f"{outside:.1f} min of the sleep opportunity lie outside the scored hypnogram (counted unscored)")
     params = sleep_parameters(codes, h.epoch_s, staged=True, lps_run_min=config.scoring.lps_run_min,
                               min_wake_bout_min=config.scoring.min_wake_bout_min)
+    exact_times(params, window, *edge_minutes(h.start, h.epoch_s, window))
     for k in SOURCE_PARAMETERS["psg"]:
         row[k] = params[k]
     if h.unknown_labels:
@@ -167,7 +177,6 @@ def score_actigraphy_record(config: StudyConfig, rec: ActigraphyRecord, qc: QCLo
     per = int(round(60 / rec.epoch_s))
     minutes = epochs_to_minutes(rec.counts, rec.epoch_s)
     n_min = minutes.size
-    sleep = score_sleep_wake(rec.counts, rec.epoch_s, settings)[:n_min]
     rule = settings.nonwear
     has_column = rec.off_wrist is not None
     if rule == "column" and not has_column:
@@ -182,6 +191,8 @@ def score_actigraphy_record(config: StudyConfig, rec: ActigraphyRecord, qc: QCLo
     else:
         nonwear = np.zeros(n_min, dtype=bool)
         used = "none"
+    # non-wear minutes, like missing ones, are neither sleep nor wake in the Webster rules
+    sleep = score_sleep_wake(rec.counts, rec.epoch_s, settings, unknown=nonwear)[:n_min]
     missing = np.isnan(minutes)
     codes = np.where(sleep, Stage.SLEEP, Stage.WAKE).astype(np.int8)
     codes[nonwear] = Stage.OFFWRIST
@@ -244,6 +255,7 @@ def score_actigraphy_windows(
         if outside > 0:
             note("warning", f"{outside:.0f} min of the sleep opportunity lie outside the recording (counted unscored)")
         p = next(params)
+        exact_times(p, window, *edge_minutes(scoring.start, 60.0, window))
         for key in keys:
             row[key] = p[key]
         _check_invalid(row, p, note, config)

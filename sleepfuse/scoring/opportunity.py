@@ -135,7 +135,37 @@ def cut_window(start: pd.Timestamp, epoch_s: float, codes: np.ndarray, window: W
     return out, outside
 
 
+def edge_minutes(start: pd.Timestamp, epoch_s: float, window: Window) -> tuple[float, float]:
+    """Minutes from the window's start to the first epoch ``cut_window`` keeps, and from the end of the
+    last one to the window's end (each within ± half an epoch; 0 when the window is on the epoch grid)."""
+    first = (window.start - start).total_seconds() / epoch_s
+    last = (window.end - start).total_seconds() / epoch_s
+    i0, i1 = int(np.ceil(first - 0.5)), int(np.ceil(last - 0.5))
+    if i1 <= i0:
+        return 0.0, 0.0
+    return (i0 - first) * epoch_s / 60.0, (last - i1) * epoch_s / 60.0
+
+
+def exact_times(params: dict, window: Window, head_min: float, tail_min: float) -> None:
+    """Make the window's parameters exact elapsed time: TIB the window's length, SOL and LPS from its
+    start, terminal wake to its end, SE on that TIB (sleep and stage minutes stay whole epochs)."""
+    if head_min == 0.0 and tail_min == 0.0:
+        return
+    tib = window.minutes
+    params["tib_min"] = tib
+    for key in ("sol_min", "lps_min"):
+        if key in params:
+            params[key] = params[key] + head_min
+    if "terminal_wake_min" in params:
+        params["terminal_wake_min"] = params["terminal_wake_min"] + tail_min
+    tst = params.get("tst_min", float("nan"))
+    if tib > 0 and tst == tst:
+        params["se_pct"] = 100.0 * tst / tib
+
+
 __all__ = [
+    "edge_minutes",
+    "exact_times",
     "Window",
     "psg_window",
     "diary_window",
