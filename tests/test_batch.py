@@ -97,6 +97,16 @@ def test_every_output_has_documented_columns(crafted):
     assert set(pd.read_csv(out / "codebook.csv")["name"]) == set(matrix.columns)
     prov = json.loads((out / "provenance.json").read_text())
     assert prov["algorithm"]["coefficient_set"] == "1min-p0.001" and prov["algorithm"]["P"] == 0.001
+    # the choices SLEEP_PARAMETERS.md leaves open are stated (issue 13)
+    if prov["algorithm"]["webster_rescoring"]:
+        assert prov["algorithm"]["webster_order"] == "sequential"
+        assert "from memory" in prov["algorithm"]["webster_order_reading"]
+    assert prov["algorithm"]["count_scale_key"] == "actigraphy.count_scale"
+    assert "neither sleep nor wake" in prov["algorithm"]["missing_minutes"]
+    assert "Carkeet 2015" in prov["agreement_methods"]["single_level"]
+    assert "Bland & Altman 2007" in prov["agreement_methods"]["nested_nights"]
+    assert prov["agreement_methods"]["bootstrap_replicates"] == 1000
+    assert {"tib_min", "is_iv_missing_hours", "rhythm_units"} <= set(prov["definitions"])
     assert len(prov["inputs"]) == 7 and all(len(i["sha256"]) == 64 for i in prov["inputs"])
     # Readers checksum the bytes they read; every digest is the file's SHA-256 (hashlib, FIPS 180-4).
     root = crafted[0]
@@ -167,6 +177,10 @@ def test_agreement_by_hand(crafted):
     # diary - PSG SOL: 5(k+1) -> 5, 10, 15: bias 10
     sol = ag[(ag.parameter == "sol_min") & (ag.pair == "diary-psg")].iloc[0]
     assert sol.bias == pytest.approx(10) and sol.sd == pytest.approx(5)
+    # one night per participant: single-level methods, named in their columns
+    assert sol.bias_ci_method == "t on n-1 df (Bland & Altman 1999)"
+    assert sol.loa_ci_method == "exact, noncentral t (Carkeet 2015)" and sol.mn_loa_ci_method == sol.loa_ci_method
+    assert not sol.by_construction and sol.n_inf_dropped == 0
 
 
 def test_epoch_agreement_by_hand(crafted):

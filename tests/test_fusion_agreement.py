@@ -289,6 +289,27 @@ def test_lins_ccc_matches_definition():
     assert res["ccc"] < stats.pearsonr(x, y).statistic
 
 
+def test_lins_ccc_interval_worked_by_hand():
+    # Source: Lin 1989 (Biometrics 45:255-268) z-transform variance as corrected in Lin 2000 (Biometrics
+    # 56:324-325), worked by hand for 6 pairs with a clear location shift (u != 0, so the u^4 term counts):
+    # x = 1..6, y = 2.5, 2.5, 4, 5.5, 5.5, 7.5; 1/n moments.
+    #   mean x 3.5, mean y 4.583333; sum dx^2 = 17.5, sum dy^2 = 19.208333, sum dx dy = 17.75
+    #   s_x^2 = 2.916667, s_y^2 = 3.201389, s_xy = 2.958333, (mean x - mean y)^2 = 1.173611
+    #   rho_c = 2 * 2.958333 / (2.916667 + 3.201389 + 1.173611) = 0.811429
+    #   r = 2.958333 / sqrt(2.916667 * 3.201389) = 0.968132;  u = -1.083333 / (2.916667 * 3.201389)^(1/4) = -0.619735
+    #   var(z) = [0.128987 + 0.685077 - 0.292369] / (6 - 2) = 0.130424   (the three terms of Lin's variance)
+    #   z = atanh(0.811429) = 1.131197; half-width 1.959964 * sqrt(0.130424) = 0.707826
+    #   CI = tanh(1.131197 -+ 0.707826) = 0.3998 to 0.9507
+    x = np.array([1.0, 2, 3, 4, 5, 6])
+    y = np.array([2.5, 2.5, 4, 5.5, 5.5, 7.5])
+    res = lins_ccc(x, y)
+    assert res["ccc"] == pytest.approx(0.811429, abs=1e-6)
+    assert res["ccc_ci_low"] == pytest.approx(0.3998, abs=1e-4)
+    assert res["ccc_ci_high"] == pytest.approx(0.9507, abs=1e-4)
+    # with the u^4 term's sign flipped, var(z) = (0.128987 + 0.685077 + 0.292369) / 4 and the lower end is 0.1000
+    assert abs(res["ccc_ci_low"] - 0.1000) > 0.2
+
+
 def test_lins_ccc_interval_coverage():
     # Common practice: the Fisher-z interval of Lin 1989/2000 should cover the
     # population CCC about 95% of the time (simulation with a known value).

@@ -343,3 +343,15 @@ def test_score_sleep_wake_dispatch():
     assert ck.shape == (600,)
     with pytest.raises(ValueError, match="algorithm"):
         score_sleep_wake(counts, 30, ActigraphySection(algorithm="other"))
+
+
+def test_algorithm_provenance_states_scale_and_webster_order():
+    from sleepfuse.scoring.actigraphy import algorithm_provenance
+
+    prov = algorithm_provenance(ActigraphySection(count_scale=0.5, cole_kripke_scale=2.0))
+    assert prov["count_scale"] == 2.0 and prov["count_scale_key"] == "actigraphy.cole_kripke_scale"
+    assert prov["webster_order"] == "sequential" and "from memory" in prov["webster_order_reading"]
+    assert "neither sleep nor wake" in prov["missing_minutes"]
+    sadeh_prov = algorithm_provenance(ActigraphySection(algorithm="sadeh", count_scale=0.5))
+    assert sadeh_prov["count_scale"] == 0.5 and sadeh_prov["count_scale_key"] == "actigraphy.count_scale"
+    assert "webster_order" not in sadeh_prov
