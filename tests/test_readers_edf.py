@@ -95,6 +95,17 @@ def test_edf_plus_d_with_gaps(tmp_path):
     )
     h = read_hypnogram(path, "UTC")
     assert h.stages.tolist() == [W, N1, U, U, N2]
+    # the gap (records end at 60 s, the next starts at 120 s) is reported with its length and time
+    notes = [p for p in h.problems if "EDF+D recording interrupted" in p.message]
+    assert len(notes) == 1 and notes[0].severity == "warning"
+    assert "1 time(s), 1.0 min in all (longest 1.0 min from" in notes[0].message
+    assert notes[0].time == pd.Timestamp(START, tz="UTC") + pd.Timedelta(seconds=60)
+
+
+def test_edf_plus_d_without_gaps_has_no_gap_note(tmp_path):
+    path = write_edf_plus(tmp_path / "P05_n1.edf", start=START, annotations=[(0, 30, "Sleep stage W"), (30, 30, "Sleep stage 1")],
+                          edf_type="D", record_duration_s=30, record_onsets_s=[0, 30])
+    assert not any("interrupted" in p.message for p in read_hypnogram(path, "UTC").problems)
 
 
 def test_edf_plus_d_signal_hypnogram_places_records_by_onset(tmp_path):

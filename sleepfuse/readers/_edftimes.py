@@ -78,6 +78,36 @@ def _record_onsets(header, keep, problems) -> np.ndarray:
     return np.where(np.isfinite(keep), keep, contiguous)
 
 
+GAP_TOLERANCE_S = 1e-3  # record onsets closer than this to the end of the previous record are contiguous
+
+
+def record_gaps(header, onsets: np.ndarray) -> list[tuple[float, float]]:
+    """Gaps between the data records of an EDF+D file: (start, length) in seconds from the header start.
+
+    EDF+ spec (Kemp & Olivan 2003): in EDF+D the records need not be
+    contiguous; a record starting later than the end of the one before it
+    leaves a gap in which nothing was recorded (its epochs read as unscored).
+    """
+    if header.variant != "EDF+D" or onsets.size < 2:
+        return []
+    ends = onsets[:-1] + header.record_duration_s
+    length = onsets[1:] - ends
+    where = np.flatnonzero(np.isfinite(length) & (length > GAP_TOLERANCE_S))
+    return [(float(ends[i]), float(length[i])) for i in where]
+
+
+def gap_problem(gaps: list[tuple[float, float]], header_start: pd.Timestamp) -> Problem | None:
+    """One QC note for the gaps of an EDF+D recording: how many, how long in all, the longest and when."""
+    if not gaps:
+        return None
+    total = sum(length for _, length in gaps)
+    start, longest = max(gaps, key=lambda g: g[1])
+    when = header_start + _seconds(start)
+    return Problem("warning", f"EDF+D recording interrupted {len(gaps)} time(s), {total / 60.0:.1f} min in all "
+                              f"(longest {longest / 60.0:.1f} min from {when.strftime('%H:%M:%S')}); "
+                              "epochs in the gaps are unscored", when)
+
+
 @functools.lru_cache(maxsize=16)
 def _record_steps(n_records: int, record_duration_s: float) -> np.ndarray:
     """np.arange(n_records) * record_duration_s, read-only: files of one study share it."""

@@ -1,8 +1,12 @@
 """EDF / EDF+ hypnogram reader: sleep stages per epoch, start time and lights markers.
 
 The annotation signal is parsed byte by byte (``_edfplus``, EDF+ spec,
-Kemp & Olivan 2003) rather than through pyedflib or MNE, which refuse
-EDF+D files, lose sub-second starts or drop annotations. A hypnogram
+Kemp & Olivan 2003) rather than through a general EDF library: pyedflib
+refuses EDF+D files; MNE reads an EDF+D file as if it were continuous and
+drops, with a warning, the annotations that then fall outside its data;
+both lose or misread sub-second start times. Gaps between the records of an
+EDF+D file are read as unscored epochs and reported in one QC note with
+their length. A hypnogram
 stored as an ordinary integer signal is read with the same parser, from
 the digital samples and the header's calibration.
 
@@ -29,6 +33,7 @@ from . import _edfplus as edfplus
 from ._edfsignal import find_hypnogram_signal, signal_stages
 from ._edfstages import _classify, _max_epochs, _stage_grid
 from ._edftimes import MAX_RECORDING_DAYS, _after, _lights, _local_start, _record_onsets, _seconds  # noqa: F401
+from ._edftimes import gap_problem, record_gaps
 from .stage_labels import (
     DEFAULT_SIGNAL_CODES,
     DEFAULT_STAGE_LABELS,
@@ -190,6 +195,9 @@ def _hypnogram(path, header, tz, epoch_s, label_table, code_table, signal_label,
     first_onset = float(onsets[0])
     record_start = _after(header_start, first_onset)
     lights_off, lights_on = _lights(lights, header_start, problems)
+    gaps = gap_problem(record_gaps(header, onsets), header_start)
+    if gaps is not None:
+        problems.append(gaps)
     strong = any(not row[4] for row in stage_rows)
     signal_index = None if strong else find_hypnogram_signal(path, header, signal_label)
     if strong and signal_label:
