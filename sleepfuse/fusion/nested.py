@@ -191,7 +191,8 @@ def cluster_bootstrap(x: np.ndarray, y: np.ndarray, codes: np.ndarray, *, confid
     ss_within_i = s_ee - np.divide(s_e * s_e, m_i)
     table = np.column_stack([m_i, m_i * m_i, s_e, s_ee, ss_within_i,
                              sums(a), sums(b), sums(a * a), sums(b * b), sums(a * b)])
-    (N, sum_m2, se, see, ssw, sa, sb, saa, sbb, sab) = (w @ table).T
+    # np.dot, not @: numpy's matmul skips BLAS for the read-only weights (measured 8 ms against 0.1 ms)
+    (N, sum_m2, se, see, ssw, sa, sb, saa, sbb, sab) = np.dot(w, table).T
     z = normal_quantile(confidence)
     with np.errstate(invalid="ignore", divide="ignore"):
         mean = d_centre + se / N
@@ -205,10 +206,13 @@ def cluster_bootstrap(x: np.ndarray, y: np.ndarray, codes: np.ndarray, *, confid
         mx, my = sa / N, sb / N
         vx, vy = saa / N - mx * mx, sbb / N - my * my
         ccc = 2.0 * (sab / N - mx * my) / (vx + vy + (mx - my) ** 2)
+    stats = np.vstack([mean - z * sd, mean + z * sd, mean - z * mn_sd, mean + z * mn_sd, ccc])
+    q = [(1.0 - confidence) / 2.0, (1.0 + confidence) / 2.0]
+    ends = np.quantile(stats, q, axis=1) if np.isfinite(stats).all() else None
     out = {}
-    for name, values in (("loa_low", mean - z * sd), ("loa_high", mean + z * sd),
-                         ("mn_loa_low", mean - z * mn_sd), ("mn_loa_high", mean + z * mn_sd), ("ccc", ccc)):
-        out[f"{name}_ci_low"], out[f"{name}_ci_high"] = _percentile(values, confidence)
+    for k, name in enumerate(("loa_low", "loa_high", "mn_loa_low", "mn_loa_high", "ccc")):
+        lo, hi = (float(ends[0, k]), float(ends[1, k])) if ends is not None else _percentile(stats[k], confidence)
+        out[f"{name}_ci_low"], out[f"{name}_ci_high"] = lo, hi
     return out
 
 
@@ -237,10 +241,13 @@ def wild_cluster_slope(m: np.ndarray, d: np.ndarray, codes: np.ndarray, *, confi
     slope = float(a.sum()) / sxx
     se = math.sqrt(factor * float(np.sum((a - slope * q) ** 2))) / sxx
     v = _sign_vectors(n, replicates, seed)
-    slope_b = (v @ a) / sxx
-    c_b = (v @ big_u) / N
-    score = v * a - c_b[:, None] * big_x - slope_b[:, None] * q
-    se_b = np.sqrt(factor * np.sum(score * score, axis=1)) / sxx
+    # score*_i = v_i·a_i − c*·X_i − β*·Q_i; with v_i² = 1, Σ score*² expands into sums that need only
+    # the products of v with four per-participant columns (one BLAS call, no B × n temporaries)
+    vs = np.dot(v, np.column_stack([a, big_u, a * big_x, a * q]))
+    slope_b, c_b = vs[:, 0] / sxx, vs[:, 1] / N
+    ss = (float(a @ a) + c_b * c_b * float(big_x @ big_x) + slope_b * slope_b * float(q @ q)
+          - 2.0 * c_b * vs[:, 2] - 2.0 * slope_b * vs[:, 3] + 2.0 * c_b * slope_b * float(big_x @ q))
+    se_b = np.sqrt(factor * np.maximum(ss, 0.0)) / sxx
     with np.errstate(invalid="ignore", divide="ignore"):
         t_b = np.abs(slope_b / se_b)
     out["prop_slope"] = slope
