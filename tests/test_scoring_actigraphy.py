@@ -190,7 +190,7 @@ def test_webster_gap_inside_sleep_rescores_nothing():
     out = cole_kripke(counts)
     assert out[:40].all() and out[60:].all() and not out[40:60].any()
     from sleepfuse.scoring.parameters import sleep_parameters
-    from sleepfuse.stages import Stage
+    from sleepfuse.model.stages import Stage
 
     codes = np.where(out, Stage.SLEEP, Stage.WAKE).astype(np.int8)
     codes[40:60] = Stage.UNSCORED

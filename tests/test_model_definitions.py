@@ -6,7 +6,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from sleepfuse.definitions import DEFINITION_CHOICES, PARAMETERS
+from sleepfuse.model.definitions import DEFINITION_CHOICES, PARAMETERS
 from sleepfuse.scoring.rhythm import rest_activity_rhythm
 
 
