@@ -42,3 +42,13 @@ def test_matrix_and_codebook_from_text_numbers_equal_from_floats():
     col = expected["psg_tst_min_mean"]
     assert book.loc["psg_tst_min_mean", "n_nonmissing"] == int(col.notna().sum())
     assert book.loc["psg_tst_min_mean", "skewness"] == float(col.skew())
+
+
+def test_codebook_states_webster_order_and_missing_minutes():
+    # Issue 13: the Webster rule order is a recalled choice; the codebook says so.
+    empty = pd.DataFrame(columns=["participant", "night", "source", "included"])
+    book = codebook(participant_matrix(empty, pd.DataFrame(columns=["participant"]), participants=["A"]))
+    text = book.loc[book["name"] == "actigraphy_nights", "definition"].iloc[0]
+    assert "webster_order" in text and "from memory" in text and "neither sleep nor wake" in text
+    m10 = book.loc[book["name"] == "actigraphy_m10"].iloc[0]
+    assert m10["unit"] == "counts/min"

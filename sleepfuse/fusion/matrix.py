@@ -17,7 +17,11 @@ _WINDOW_RULES = {
     "psg": "Sleep opportunity: lights off to lights on (AASM); without markers, first to last scored epoch (QC note).",
     "actigraphy": ("Sleep opportunity: the diary's tried to sleep to out of bed for the night; else event markers; "
                    "else the automatic rest interval. " + MARKER_RULE + " " + REST_INTERVAL_RULE
-                   + " Sleep/wake and non-wear rules are named in provenance.json."),
+                   + " Sleep/wake and non-wear rules are named in provenance.json. Missing and non-wear minutes are "
+                   "neither sleep nor wake in every sleep/wake rule. Webster rescoring (with Cole-Kripke): by default "
+                   "rules 4-5 judge the sleep runs left after rules 1-3 ([actigraphy] webster_order; the order is from "
+                   "memory, not checked against Webster et al. 1982; the run's choice is in provenance.json). Each "
+                   "algorithm's count scale is in provenance.json."),
     "diary": "Sleep opportunity: tried to sleep to out of bed; rows with impossible times are rejected (QC error).",
 }
 CODEBOOK_COLUMNS = ["name", "source", "parameter", "statistic", "unit", "definition", "n_nonmissing", "skewness"]
