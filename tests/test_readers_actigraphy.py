@@ -142,13 +142,13 @@ def test_time_going_backwards_is_reported(tmp_path):
 
 
 def test_wrong_column_name_lists_columns_found_and_the_study_toml_key(tmp_path):
-    path = write_csv(tmp_path / "a.csv", ["2026-01-10T22:00:00", "2026-01-10T22:01:00"], header=("Time", "Activity"))
+    path = write_csv(tmp_path / "a.csv", ["2026-01-10T22:00:00", "2026-01-10T22:01:00"], header=("Moment", "Movement"))
     with pytest.raises(ReadError) as err:
         read_actigraphy(path, "UTC")
     msg = str(err.value)
-    assert "'Time'" in msg and "'Activity'" in msg and "[actigraphy] columns" in msg and "timestamp" in msg
+    assert "'Moment'" in msg and "'Movement'" in msg and "[actigraphy] columns" in msg and "counts" in msg
     assert err.value.path == path
-    rec = read_actigraphy(path, "UTC", columns={"timestamp": "Time", "counts": "activity"})  # case-insensitive
+    rec = read_actigraphy(path, "UTC", columns={"timestamp": "MOMENT", "counts": "movement"})  # case-insensitive
     assert rec.n_epochs == 2 and rec.epoch_s == 60
 
 
@@ -197,7 +197,9 @@ def test_bom_semicolon_crlf_and_trailing_blank_lines(tmp_path):
     path = tmp_path / "a.csv"
     path.write_bytes(b"\xef\xbb\xbf" + body.encode())
     rec = read_actigraphy(path, "UTC")
-    assert rec.counts.tolist() == [3.0, 4.0] and rec.problems == []
+    assert rec.counts.tolist() == [3.0, 4.0]
+    (info,) = rec.problems  # the dialect, logged as info (issue 14)
+    assert info.severity == "info" and "utf-8 with BOM" in info.message and "semicolon" in info.message
 
 
 def test_quoted_file_keeps_line_numbers(tmp_path):

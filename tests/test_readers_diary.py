@@ -160,11 +160,12 @@ def test_participant_column_wins_and_is_required_without_a_name(tmp_path):
 
 
 def test_missing_night_column_lists_columns_and_mapping_works(tmp_path):
-    path = write(tmp_path / "P01_diary.csv", "2026-04-10,23:10,06:30", header="Date,Lights out,Up")
+    path = write(tmp_path / "P01_diary.csv", "2026-04-10,23:10,06:30", header="Evening of,Settled,Up")
     with pytest.raises(ReadError) as err:
         read_diary(path, "UTC", participant="P01")
-    assert "'Date'" in str(err.value) and "'Lights out'" in str(err.value) and "[diary] columns" in str(err.value)
-    diary = read_diary(path, "UTC", participant="P01", columns={"night": "date", "tried_to_sleep": "Lights out", "out_of_bed": "Up"})
+    assert "'Evening of'" in str(err.value) and "'Settled'" in str(err.value) and "[diary] columns" in str(err.value)
+    diary = read_diary(path, "UTC", participant="P01",
+                       columns={"night": "evening of", "tried_to_sleep": "Settled", "out_of_bed": "Up"})
     (e,) = diary.entries
     assert e.tried_to_sleep.hour == 23 and e.out_of_bed.day == 11
 

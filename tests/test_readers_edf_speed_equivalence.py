@@ -236,16 +236,6 @@ def test_header_start_is_localize_to_the_unit_zone_and_fold(zone_name):
     assert checked >= 3
 
 
-def test_header_start_follows_pandas_zone_after_the_zone_cache_is_cleared():
-    """After ZoneInfo.clear_cache() pandas hands out a new tzinfo object; the fast header start must
-    carry that one, not one remembered from before (test order must not matter)."""
-    edf._local_start(START, "Europe/Berlin")
-    ZoneInfo.clear_cache(only_keys=["Europe/Berlin"])
-    fast, expected = edf._local_start(START, "Europe/Berlin"), localize(START, "Europe/Berlin")
-    assert fast.tzinfo is expected.tzinfo
-    assert fast == expected
-
-
 # --- the epoch grid --------------------------------------------------------------------------------
 
 

@@ -23,7 +23,8 @@ COLE_KRIPKE_SETS = ("1min-p0.001", "1min-p0.00001")
 WEBSTER_ORDERS = ("sequential", "parallel")
 NONWEAR_RULES = ("auto", "column", "choi", "none")
 STAGE_TARGETS = ("W", "N1", "N2", "N3", "R", "unscored")
-ACTIGRAPHY_COLUMN_KEYS = ("timestamp", "counts", "off_wrist", "marker")
+ACTIGRAPHY_COLUMN_KEYS = ("timestamp", "date", "time", "counts", "off_wrist", "marker")
+DATE_ORDERS = ("day-first", "month-first")  # for dates such as 03/04/2026 that the file's values leave open
 DIARY_COLUMN_KEYS = (
     "participant",
     "night",
@@ -45,6 +46,7 @@ class StudySection:
     timezone_from_machine: bool = False
     participant_pattern: str = ""  # regex with one group (or named group "participant")
     participants: list[str] = field(default_factory=list)  # if given, files of other participants are reported and skipped
+    date_order: str = ""  # "" = settled by each file's values; else day-first / month-first
 
 
 @dataclass
@@ -87,6 +89,7 @@ class ActigraphySection:
 class DiarySection:
     columns: dict[str, str] = field(default_factory=dict)
     quality_scale: str = "as entered"
+    sheet: str = ""  # workbook diaries: the sheet to read ("" = the one with the diary's columns)
 
 
 @dataclass
@@ -229,6 +232,8 @@ def build_config(root: str | Path, data: dict[str, Any] | None = None, source: P
         except re.error as exc:
             _fail("study.participant_pattern", st.participant_pattern, f"a valid regular expression ({exc})", source)
 
+    if st.date_order:
+        _choice("study.date_order", st.date_order, DATE_ORDERS, source)
     if cfg.psg.epoch_s <= 0:
         _fail("psg.epoch_s", cfg.psg.epoch_s, "a positive number of seconds", source)
     for label, tgt in cfg.psg.labels.items():

@@ -48,6 +48,7 @@ class Hypnogram:
     unknown_labels: dict[str, int] = field(default_factory=dict)
     problems: list[Problem] = field(default_factory=list)
     sha256: str = ""  # of the bytes read, when the reader read the whole file ("" otherwise)
+    detected: dict[str, str] = field(default_factory=dict)  # what the reader found (dialect, columns...): inspect
 
     @property
     def n_epochs(self) -> int:
@@ -78,6 +79,7 @@ class ActigraphyRecord:
     marker: np.ndarray | None = None  # bool
     problems: list[Problem] = field(default_factory=list)
     sha256: str = ""  # of the bytes read
+    detected: dict[str, str] = field(default_factory=dict)  # what the reader found (dialect, columns...): inspect
 
     @property
     def n_epochs(self) -> int:
@@ -115,6 +117,7 @@ class Diary:
     path: Path
     entries: list[DiaryEntry]
     problems: list[Problem] = field(default_factory=list)
+    detected: dict[str, str] = field(default_factory=dict)  # what the reader found (dialect, columns...): inspect
 
 
 SOURCES = ("psg", "actigraphy", "diary")

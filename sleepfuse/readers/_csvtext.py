@@ -19,8 +19,10 @@ import pandas as pd
 
 from sleepfuse.model.errors import ReadError
 from sleepfuse.model.records import Problem
+from ._dialect import Dialect, decode, decimal_comma, find_header, metadata_of, sniff_delimiter, split_fields, \
+    split_lines, summary_tail
 
-DELIMITERS = (",", ";", "\t")
+from ._dialect import DELIMITERS  # noqa: E402
 MAX_DETAILED = 20  # problems of one kind listed one by one; the rest are summarised
 
 
@@ -46,6 +48,22 @@ class CsvTable:
             self._cells = pd.DataFrame(self._rows, columns=range(len(self.header)), dtype=str)
         return self._cells
 
+    dialect: Dialect | None = None
+
+    def row(self, i: int) -> list[str]:
+        """Row ``i`` as a list of str."""
+        if self._rows is not None:
+            return list(self._rows[i])
+        return [str(v) for v in self.cells.iloc[i].tolist()]
+
+    def keep_first(self, n: int) -> None:
+        """Drop every row after the first ``n`` (summary lines below the data)."""
+        self.lines = self.lines[:n]
+        if self._rows is not None:
+            self._rows = self._rows[:n]
+        if self._cells is not None:
+            self._cells = self._cells.iloc[:n]
+
     def values(self) -> np.ndarray:
         """The cells as a 2-D object array of str (rows × columns)."""
         if self._rows is not None:
@@ -55,37 +73,25 @@ class CsvTable:
         return self.cells.to_numpy(dtype=object)
 
 
-def read_text(path: Path) -> str:
-    """The file's text: UTF-8, optional byte-order mark; anything else is a ReadError."""
-    raw = read_raw(path)
-    return raw.decode("ascii") if raw.isascii() else raw.decode("utf-8")
-
-
 BOM = b"\xef\xbb\xbf"
 
 
-def read_raw(path: Path, *, with_bom: bool = False) -> bytes:
-    """The file's bytes without a byte-order mark (kept if ``with_bom``), checked to be UTF-8 text (else a ReadError)."""
-    try:
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        raise ReadError(path, "file not found") from None
-    except OSError as exc:
-        raise ReadError(path, f"cannot open the file ({exc.strerror or exc})") from None
-    bom = raw.startswith(b"\xef\xbb\xbf")
-    if not raw.isascii():  # plain ASCII (the usual export) is UTF-8 already: no need to decode it here
-        try:
-            raw[3 if bom else 0:].decode("utf-8")
-        except UnicodeDecodeError as exc:
-            start = exc.start + (3 if bom else 0)  # offset in the file, byte-order mark included
-            raise ReadError(
-                path,
-                f"not UTF-8 text (byte 0x{raw[start]:02x} at offset {start}); "
-                "save the file as UTF-8 CSV",
-            ) from None
+def read_raw(path: Path) -> bytes:
+    """The file's bytes, exactly as stored (a ReadError if it cannot be opened)."""
+    return _file_bytes(path)
+
+
+def plain_text(raw: bytes) -> bool:
+    """True for UTF-8 (or ASCII) bytes without NULs: the fast readers' input."""
     if b"\x00" in raw:
-        raise ReadError(path, "the file holds NUL bytes; it is not a text CSV file")
-    return raw[3:] if bom and not with_bom else raw
+        return False
+    if raw.isascii():
+        return True
+    try:
+        raw.decode("utf-8")
+    except UnicodeDecodeError:
+        return False
+    return True
 
 
 def read_fast_columns(raw: bytes, wanted: dict[str, object],
@@ -166,23 +172,60 @@ def _sniff_delimiter(header_line: str) -> str:
     return DELIMITERS[int(np.argmax(counts))] if max(counts) > 0 else ","
 
 
-def read_table(path: Path) -> CsvTable:
-    """Parse ``path`` into a CsvTable; empty file or missing header is a ReadError."""
-    text = read_text(path)
-    lines = text.split("\n")
-    first = next((i for i, ln in enumerate(lines) if ln.strip()), None)
+def read_table(path: Path, knows=None) -> CsvTable:
+    """Parse ``path`` into a CsvTable, in whatever dialect the lab saved it (``table.dialect``).
+
+    ``knows(fields) -> int`` counts the reader's column names in a row; it finds
+    the header below any metadata lines. Summary lines below the data are
+    dropped (listed in the dialect). Empty file or missing header: ReadError.
+    """
+    raw = _file_bytes(path)
+    text, encoding = decode(raw)
+    if "\x00" in text:
+        raise ReadError(path, "the file holds NUL bytes; it is not a text CSV file")
+    all_lines, line_end = split_lines(text)
+    first = next((i for i, ln in enumerate(all_lines) if ln.strip()), None)
     if first is None:
         raise ReadError(path, "the file is empty")
-    delimiter = _sniff_delimiter(lines[first])
-    body = text if first == 0 else "\n".join(lines[first:])
+    delimiter = sniff_delimiter(all_lines)
+    if knows is not None:
+        top = [split_fields(ln, delimiter) if ln.strip() else [] for ln in all_lines[:200]]
+        first = find_header(top, knows) if any(top) else first
+        if not all_lines[first].strip():
+            first = next(i for i, ln in enumerate(all_lines) if ln.strip())
+    body = "\n".join(all_lines[first:])
     table = None
-    if '"' not in body and "\r" not in body.replace("\r\n", "\n"):
+    if '"' not in body:
         table = _read_fast(body, delimiter, first)
     if table is None:
         table = _read_exact(path, body, delimiter, first)
     if not any(h.strip() for h in table.header):
         raise ReadError(path, f"line {first + 1}: the header row has no column names")
+    dialect = Dialect(encoding=encoding, line_end=line_end, delimiter=delimiter, header_line=first + 1,
+                      metadata=metadata_of(all_lines[:first]))
+    n = len(table.lines)
+    if knows is not None and n:
+        head = [table.row(i) for i in range(min(n, 50))]
+        tail = [table.row(i) for i in range(max(0, n - 50), n)]
+        k = summary_tail(head, tail, len(table.header))
+        if k and k < n:
+            dialect.summary_lines = [int(x) for x in table.lines[n - k:]]
+            table.keep_first(n - k)
+        head = [table.row(i) for i in range(min(len(table.lines), 200))]
+        dialect.decimal = "," if decimal_comma([list(c) for c in zip(*head)] if head else [], delimiter) else "."
+    table.dialect = dialect
     return table
+
+
+def _file_bytes(path: Path) -> bytes:
+    try:
+        return path.read_bytes()
+    except FileNotFoundError:
+        raise ReadError(path, "file not found") from None
+    except IsADirectoryError:
+        raise ReadError(path, "is a directory, not a text file") from None
+    except OSError as exc:
+        raise ReadError(path, f"cannot open the file ({exc.strerror or exc})") from None
 
 
 def _read_fast(body: str, delimiter: str, offset: int) -> CsvTable | None:

@@ -1,12 +1,10 @@
 """Times of an EDF(+) hypnogram: the header start in the study zone, record onsets, lights markers.
 
 All times are seconds from the header start time (a naive wall-clock time,
-whole seconds) turned into tz-aware pandas Timestamps. Shortcuts, each giving
-the same instant, unit, zone and fold as the general computation (checked in
-tests/test_readers_edf_speed_equivalence.py):
+whole seconds) turned into tz-aware pandas Timestamps by ``model.clock``.
+Shortcuts, each giving the same instant, unit, zone and fold as the general
+computation (checked in tests/test_readers_edf_speed_equivalence.py):
 
-- ``_local_start`` builds the header start in one step when its wall time
-  exists once in the zone, else defers to ``timeutil.localize``;
 - ``_after`` returns the start itself for an offset of 0 s;
 - ``_record_steps`` caches the contiguous record offsets a study's files share.
 """
@@ -16,13 +14,12 @@ from __future__ import annotations
 import datetime as dt
 import functools
 import math
-from zoneinfo import ZoneInfo
 
 import numpy as np
 import pandas as pd
 
 from sleepfuse.model.records import Problem
-from sleepfuse.model.clock import localize, pandas_tzinfo
+from sleepfuse.model.clock import localize
 
 MAX_RECORDING_DAYS = 14  # longer stage series are taken for a damaged file
 
@@ -42,20 +39,9 @@ def _after(start: pd.Timestamp, seconds: float) -> pd.Timestamp:
     return start + _seconds(seconds)
 
 
-_UTC = dt.timezone.utc
-
-
 def _local_start(naive: dt.datetime, tz: str) -> pd.Timestamp:
-    """``localize(naive, tz)`` for a header start (naive, whole seconds), built in one step when
-    the wall time exists once in ``tz`` (no spring-forward gap): the same instant, unit, zone and
-    fold (checked in tests/test_readers_edf_speed_equivalence.py)."""
-    tzinfo = pandas_tzinfo(tz)
-    if not isinstance(tzinfo, ZoneInfo) or naive.tzinfo is not None or naive.microsecond or naive.fold:
-        return localize(naive, tz)
-    local = naive.replace(tzinfo=tzinfo).astimezone(_UTC).astimezone(tzinfo)
-    if local.replace(tzinfo=None) != naive:
-        return localize(naive, tz)  # a gap time comes back shifted: localize's own path, same result
-    return pd.Timestamp(local)
+    """The header start (a naive wall-clock time) in the study zone: ``model.clock.localize``."""
+    return localize(naive, tz)
 
 
 def _record_onsets(header, keep, problems) -> np.ndarray:

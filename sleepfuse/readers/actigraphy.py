@@ -18,19 +18,10 @@ import pandas as pd
 from sleepfuse.model.errors import ReadError
 from sleepfuse.model.records import ActigraphyRecord, Problem
 from sleepfuse.model.clock import zone
-from ._csvtext import (
-    BOM,
-    MAX_DETAILED,
-    find_column,
-    is_blank_row,
-    line_phrase,
-    missing_column_message,
-    ragged_problems,
-    read_fast_columns,
-    read_raw,
-    read_table,
-)
-from ._csvtime import _localize_wall, parse_instants
+from ._actigraphy_table import ROLES, parse_counts, parse_flags, read_careful, unmapped_optional
+from ._columns import match_columns
+from ._csvtext import BOM, MAX_DETAILED, line_phrase, plain_text, read_fast_columns, read_raw
+from ._csvtime import _localize_wall
 
 ACTIGRAPHY_DEFAULT_COLUMNS = {"timestamp": "timestamp", "counts": "counts", "off_wrist": "off_wrist", "marker": "marker"}
 ALLOWED_EPOCHS_S = (15, 30, 60)
@@ -39,11 +30,15 @@ MAX_SPAN_DAYS = 400  # longer than any wrist recording: a clock error, not data
 _US = 1_000_000  # microseconds per second; instants are int64 µs since the epoch (UTC)
 
 
-def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> ActigraphyRecord:
+def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None, date_order: str = "") -> ActigraphyRecord:
     """Read an activity-count CSV into an ActigraphyRecord on a regular epoch grid.
 
-    ``tz`` is the study's IANA zone; ``columns`` maps timestamp/counts/off_wrist/
-    marker to the file's column names (study.toml ``[actigraphy] columns``).
+    ``tz`` is the study's IANA zone; ``columns`` maps timestamp/date/time/counts/
+    off_wrist/marker to the file's column names (study.toml ``[actigraphy] columns``);
+    without them the folder contract's names and the trade's synonyms are looked for.
+    ``date_order`` ("day-first" / "month-first") reads dates the file's values leave open.
+    Plain files (UTF-8, ISO time stamps, the contract's names) take a fast path; any
+    other dialect the careful one (``_actigraphy_table``), which says what it detected.
     """
     path = Path(path)
     try:
@@ -52,16 +47,26 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> 
         raise ReadError(path, str(exc)) from None
     names = dict(ACTIGRAPHY_DEFAULT_COLUMNS)
     names.update(columns or {})
-    raw = read_raw(path, with_bom=True)
+    raw = read_raw(path)
     digest = hashlib.sha256(raw).hexdigest()  # provenance of exactly the bytes read
     raw = raw[3:] if raw.startswith(BOM) else raw
-    fast = _read_plain(raw, names, tz) if FAST_PATH else None
+    fast = _read_plain(raw, names, tz) if FAST_PATH and plain_text(raw) else None
+    detected: dict[str, str] = {}
+    header_epoch = None
+    decimal = "."
     if fast is not None:
         header, instants, lines_ok, values, local_problems = fast
-        problems = _unmapped_optional(header, names, columns) + local_problems
+        match = match_columns(header, ROLES, columns, names)
+        problems = unmapped_optional(header, match.index, names, columns) + local_problems
+        detected = {"dialect": "plain (UTF-8, comma, header on line 1)", "columns": match.describe(header),
+                    "time stamps": f"{names['timestamp']!r}: ISO 8601"}
+        if match.unknown:
+            detected["unused columns"] = ", ".join(map(repr, match.unknown))
+            problems.insert(0, Problem("info", f"columns not used: {detected['unused columns']}"))
         rows = None
     else:
-        instants, lines_ok, rows, col, problems = _read_exact_rows(path, names, columns, tz)
+        instants, lines_ok, rows, col, problems, detected, header_epoch, decimal = read_careful(
+            path, names, columns, tz, date_order)
 
     keep, outliers = _drop_isolated_outliers(instants, lines_ok)
     problems += outliers
@@ -71,7 +76,11 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> 
             rows = rows.iloc[keep]
         else:
             values = {k: v[keep] for k, v in values.items()}
-    epoch_s = _infer_epoch(path, instants)
+    epoch_s = _infer_epoch(path, instants) if instants.size > 1 or header_epoch is None else header_epoch
+    if header_epoch is not None and header_epoch != epoch_s:
+        problems.append(Problem("warning", f"the header lines give a {header_epoch}-s epoch but the time stamps step "
+                                           f"by {epoch_s} s; the time stamps are used"))
+    detected["epoch length"] = f"{epoch_s} s"
     span_days = (instants.max() - instants[0]) / (86400 * _US)
     if span_days > MAX_SPAN_DAYS:
         raise ReadError(
@@ -89,7 +98,7 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> 
     if rows is None:  # plain file: every cell already checked
         counts_row = values["counts"]
     else:
-        counts_row, count_problems = _parse_counts(rows[col["counts"]], lines_ok, instants, tz)
+        counts_row, count_problems = parse_counts(rows[col["counts"]], lines_ok, instants, tz, decimal)
         problems += count_problems
     # every row kept, one per epoch in order (the usual file): place and first_of_slot are both 0..n-1
     identity = place.size == n and first_of_slot.size == counts_row.size
@@ -108,7 +117,7 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> 
         else:
             if col[key] is None:
                 continue
-            flags, flag_problems = _parse_flags(rows[col[key]], lines_ok, instants, tz, key, blank_ok=key == "marker")
+            flags, flag_problems = parse_flags(rows[col[key]], lines_ok, instants, tz, key, blank_ok=key == "marker")
             problems += flag_problems
         if identity:
             arr = np.array(flags, dtype=bool)
@@ -120,7 +129,7 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None) -> 
 
     return ActigraphyRecord(
         path=path, start=start, epoch_s=epoch_s, counts=counts, off_wrist=off_wrist, marker=marker, problems=problems,
-        sha256=digest,
+        sha256=digest, detected=detected,
     )
 
 
@@ -157,47 +166,6 @@ def _read_plain(raw: bytes, names: dict[str, str], tz: str):
     lines = np.arange(2, wall.size + 2, dtype=np.int64)
     utc, _, problems = _localize_wall(wall, lines, tz)
     return header, utc, lines, values, problems
-
-
-def _unmapped_optional(header: list[str], names: dict[str, str], columns: dict[str, str] | None) -> list[Problem]:
-    """A warning for an off_wrist/marker column named in study.toml but absent from the file."""
-    return [
-        Problem("warning", f"column {names[key]!r} (for {key}, set in study.toml) is not in the file; {key} ignored")
-        for key in ("off_wrist", "marker")
-        if columns and key in columns and find_column(header, names[key]) is None
-    ]
-
-
-def _read_exact_rows(path: Path, names: dict[str, str], columns: dict[str, str] | None, tz: str):
-    """The careful path: every cell as text, each problem reported with its file line."""
-    table = read_table(path)
-    problems: list[Problem] = ragged_problems(table)
-    col: dict[str, int | None] = {}
-    for key in ("timestamp", "counts"):
-        col[key] = find_column(table.header, names[key])
-        if col[key] is None:
-            raise ReadError(path, missing_column_message(key, names[key], table.header, "actigraphy"))
-    for key in ("off_wrist", "marker"):
-        col[key] = find_column(table.header, names[key])
-    problems += _unmapped_optional(table.header, names, columns)
-    filled = ~is_blank_row(table.cells)
-    cells = table.cells[filled]
-    lines = table.lines[filled]
-    if len(cells) == 0:
-        raise ReadError(path, "the file has a header but no data rows")
-
-    stamps = cells[col["timestamp"]].str.strip()
-    instants, ok, local_problems = parse_instants(stamps, lines, tz)
-    problems += local_problems
-    if not ok.any():
-        example = stamps.iloc[0]
-        raise ReadError(
-            path,
-            f"no readable timestamps in column {table.header[col['timestamp']]!r} "
-            f"(line {lines[0]}: {example[:40]!r}); use ISO 8601 such as 2026-03-08T23:15:00",
-        )
-    keep = np.flatnonzero(ok)
-    return instants[keep], lines[keep], cells.iloc[keep], col, problems
 
 
 def _local(instant_us: int, tz: str) -> pd.Timestamp:
@@ -344,51 +312,3 @@ def _place_on_grid(instants: np.ndarray, lines: np.ndarray, epoch_s: int, tz: st
     return slots, first, problems
 
 
-def _parse_counts(values: pd.Series, lines: np.ndarray, instants: np.ndarray, tz: str):
-    """Counts as float64; missing, non-numeric or negative values become NaN and are reported."""
-    text = values.str.strip()
-    try:  # every cell a number: the fast path
-        counts = text.astype(np.float64).to_numpy(dtype=np.float64, na_value=np.nan).copy()
-    except (ValueError, TypeError):
-        counts = pd.to_numeric(text, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan).copy()
-    problems: list[Problem] = []
-    blank = (text == "").to_numpy()
-    bad = ~np.isfinite(counts) & ~blank
-    negative = np.isfinite(counts) & (counts < 0)
-    for mask, what in ((blank, "counts missing"), (bad, "counts not a number"), (negative, "negative counts")):
-        idx = np.flatnonzero(mask)
-        if idx.size:
-            example = f" (e.g. {text.iloc[idx[0]][:20]!r})" if what == "counts not a number" else ""
-            problems.append(
-                Problem(
-                    "warning",
-                    f"{what} on {idx.size} row(s){example}, read as missing: {line_phrase(lines[idx])}",
-                    time=_local(instants[idx[0]], tz),
-                )
-            )
-    counts[bad | negative] = np.nan
-    return counts, problems
-
-
-_TRUE = {"1", "1.0", "true", "yes", "y", "t"}
-_FALSE = {"0", "0.0", "false", "no", "n", "f"}
-
-
-def _parse_flags(values: pd.Series, lines, instants, tz: str, key: str, *, blank_ok: bool):
-    """A 0/1 column as bool; blank (unless ``blank_ok``) and other values read as False and reported."""
-    text = values.str.strip().str.lower()
-    flags = text.isin(_TRUE).to_numpy()
-    known = flags | text.isin(_FALSE).to_numpy()
-    blank = (text == "").to_numpy()
-    problems = []
-    for mask, what in ((~known & ~blank, "not 0 or 1"), (blank & (not blank_ok), "missing")):
-        idx = np.flatnonzero(mask)
-        if idx.size:
-            problems.append(
-                Problem(
-                    "warning",
-                    f"{key} {what} on {idx.size} row(s), read as 0: {line_phrase(lines[idx])}",
-                    time=_local(instants[idx[0]], tz),
-                )
-            )
-    return flags, problems

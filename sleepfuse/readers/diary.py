@@ -13,18 +13,18 @@ import datetime as dt
 import math
 import re
 from pathlib import Path
-from zoneinfo import ZoneInfo
 
 import pandas as pd
 
 from sleepfuse.model.config import DIARY_COLUMN_KEYS
 from sleepfuse.model.errors import ReadError
 from sleepfuse.model.records import Diary, DiaryEntry, Problem
-from sleepfuse.model.clock import NOON, clock_on_night, localize, pandas_tzinfo, zone
-from ._csvtext import blank_rows, find_column, missing_column_message, ragged_problems, read_table
+from sleepfuse.model.clock import GAP, REPEAT, localize, place_clock, place_wall, zone
+from ._stamps import parse_clock
+from ._csvtext import missing_column_message
+from ._diary_table import TIME_KEYS, diary_table
 
 DIARY_DEFAULT_COLUMNS = {k: k for k in DIARY_COLUMN_KEYS}
-TIME_KEYS = ("bedtime", "tried_to_sleep", "final_awakening", "out_of_bed")
 NUMBER_KEYS = ("sol_min", "nwak", "waso_min", "quality")
 _LABEL = {
     "bedtime": "bedtime",
@@ -39,33 +39,33 @@ _ORDER = (
     ("tried_to_sleep", "out_of_bed"),
     ("final_awakening", "out_of_bed"),
 )
-_CLOCK_RE = re.compile(r"^(\d{1,2}):(\d{2})(?::(\d{2}))?$")
+_CLOCK_RE = re.compile(r"^(\d{1,2}):(\d{2})(?::(\d{2}))?(?:\s*[AaPp]\.?\s?[Mm]\.?)?$")
 _DATE_RE = re.compile(r"^\d{4}-\d{2}-\d{2}")
 
 
 def read_diary(
-    path, tz: str, *, columns: dict[str, str] | None = None, participant: str | None = None
+    path, tz: str, *, columns: dict[str, str] | None = None, participant: str | None = None,
+    sheet: str = "", date_order: str = "",
 ) -> Diary:
-    """Read a sleep-diary CSV: one DiaryEntry per (participant, night).
+    """Read a sleep diary (CSV in any dialect, or an .xlsx/.ods workbook): one DiaryEntry per (participant, night).
 
     ``participant`` comes from the file name; a ``participant`` column, if the
     file has one, wins. ``columns`` maps our keys to the file's column names
-    (study.toml ``[diary] columns``).
+    (study.toml ``[diary] columns``); without it, the contract's names and the
+    trade's synonyms are looked for. ``sheet`` names a workbook's sheet;
+    ``date_order`` reads dates the file's own values leave open.
     """
     path = Path(path)
     try:
         zone(tz)
     except ValueError as exc:
         raise ReadError(path, str(exc)) from None
-    clock = _ClockReader(tz)
     names = dict(DIARY_DEFAULT_COLUMNS)
     names.update(columns or {})
-    table = read_table(path)
-    problems: list[Problem] = ragged_problems(table)
-
-    col = {key: _find_column(table.header, names[key]) for key in DIARY_COLUMN_KEYS}
+    header, records, lines, col, problems, detected = diary_table(path, names, columns, sheet=sheet,
+                                                                  date_order=date_order)
     if col["night"] is None:
-        raise ReadError(path, missing_column_message("night", names["night"], table.header, "diary"))
+        raise ReadError(path, missing_column_message("night", names["night"], header, "diary"))
     if col["participant"] is None and not participant:
         raise ReadError(
             path,
@@ -77,20 +77,13 @@ def read_diary(
         for key in columns:
             if key in col and col[key] is None and key != "night":
                 problems.append(Problem("warning", f"column {names[key]!r} (for {key}, set in study.toml) is not in the file"))
-
-    rows = table.values().tolist()  # lists of str: plain indexing beats numpy's per cell
-    filled = blank_rows(rows)
-    records = [row for row, blank in zip(rows, filled) if not blank]
-    lines = [line for line, blank in zip(table.lines.tolist(), filled) if not blank]
     if len(records) == 0:
         raise ReadError(path, "the file has a header but no diary rows")
 
     j_night = col["night"]
     j_who = col["participant"]
-    times = [(key, j, table.header[j]) for key in TIME_KEYS if (j := col[key]) is not None]
-    numbers = [(key, j, table.header[j]) for key in NUMBER_KEYS if (j := col[key]) is not None]
-    place = getattr(clock, "place", None)  # None: every time through _parse_time (the careful path)
-    clocks = _CLOCKS
+    times = [(key, j, header[j]) for key in TIME_KEYS if (j := col[key]) is not None]
+    numbers = [(key, j, header[j]) for key in NUMBER_KEYS if (j := col[key]) is not None]
     entries: list[DiaryEntry] = []
     seen: dict[tuple[str, dt.date], int] = {}
     for row, line in zip(records, lines):
@@ -110,11 +103,7 @@ def read_diary(
             text = str(row[j]).strip()
             if not text:
                 continue
-            parsed = clocks.get(text)
-            if parsed is not None and place is not None:
-                value, note = place(parsed, night)  # an HH:MM[:SS] seen before: straight to the clock reader
-            else:
-                value, note = _parse_time(text, night, tz, clock)
+            value, note = _parse_time(text, night, tz)
             if value is None:
                 problems.append(
                     Problem(
@@ -171,7 +160,7 @@ def read_diary(
             continue
         seen[(who, night)] = line
         entries.append(entry)
-    return Diary(path=path, entries=entries, problems=problems)
+    return Diary(path=path, entries=entries, problems=problems, detected=detected)
 
 
 def _parse_night(text: str) -> dt.date | None:
@@ -184,129 +173,35 @@ def _parse_night(text: str) -> dt.date | None:
         return None
 
 
-class _ClockReader:
-    """Diary clock times on a night in one zone, as ``clock_on_night`` places them, with their DST note.
-
-    Works on zoneinfo datetimes (PEP 495) instead of one pandas conversion per
-    cell; gives ``clock_on_night`` and ``_dst_note``'s results exactly
-    (tests/test_readers_diary_clock.py and tests/test_readers_diary_speed_equivalence.py
-    compare them across DST changes).
-
-    Fast path: a wall time that maps to itself through UTC and has the same UTC
-    offset for fold=0 and fold=1 is neither in a spring gap nor repeated, so it
-    needs no note; that takes two offset look-ups and one ``fromutc``, the same
-    ``fromutc`` call (same argument) that ``astimezone`` makes in the careful
-    steps. Anything else (gap, repeat, odd zone data) takes the careful steps.
-    """
-
-    def __init__(self, tz: str):
-        self.tz = tz
-        self.info = _pandas_tzinfo(tz)
-
-    def __call__(self, clock: dt.time, night: dt.date) -> tuple[pd.Timestamp, str]:
-        if self.info is not None and (clock.fold or clock.tzinfo is not None):  # not from _clock_of: careful steps
-            return self._careful(clock, night if clock >= NOON else night + _ONE_DAY)
-        return self.place((clock, clock.replace(fold=1), clock < NOON), night)
-
-    def place(self, parsed: tuple[dt.time, dt.time, bool], night: dt.date) -> tuple[pd.Timestamp, str]:
-        """``__call__`` for a clock as ``_clock_of`` gives it: (time, the same with fold=1, before noon)."""
-        clock, clock1, next_day = parsed
-        info = self.info
-        if info is None:
-            value = clock_on_night(clock, night, self.tz)
-            return value, _dst_note(value, clock)
-        day = night + _ONE_DAY if next_day else night
-        wall = _combine(day, clock, info)  # fold 0, as ``clock`` has fold 0
-        offset = info.utcoffset(wall)
-        local = info.fromutc(wall - offset)  # what ``astimezone`` from UTC gives: same call, same argument
-        # Same tzinfo: == compares the wall fields (date and time), fold aside.
-        if local == wall and info.utcoffset(_combine(day, clock1)) == offset:
-            return pd.Timestamp(local), ""
-        return self._careful(clock, day)
-
-    def _careful(self, clock: dt.time, day: dt.date) -> tuple[pd.Timestamp, str]:
-        """The PEP 495 steps in full: UTC of the wall time, back to local, fold=1 for a repeat."""
-        first = self._utc(dt.datetime.combine(day, clock), 0)
-        local = first.astimezone(self.info)
-        value = pd.Timestamp(local)
-        if local.time() != clock:
-            return value, f"does not exist on that day (spring-forward gap); read as {value:%H:%M%z}"
-        if self._utc(local.replace(tzinfo=None), 1) != first:
-            return value, f"occurs twice on that day (autumn change); read as the first, {value:%H:%M%z}"
-        return value, ""
-
-    def _utc(self, wall: dt.datetime, fold: int) -> dt.datetime:
-        """The instant (UTC) of wall time ``wall``; ``fold`` as in PEP 495."""
-        return wall.replace(tzinfo=self.info, fold=fold).astimezone(dt.timezone.utc).replace(fold=0)
-
-
-def _pandas_tzinfo(tz: str) -> dt.tzinfo | None:
-    """The tzinfo pandas gives ``tz`` if it is a zoneinfo zone or UTC, else None (then the careful path).
-
-    ``timeutil.pandas_tzinfo`` remembers it per name while ``ZoneInfo(tz)`` gives
-    the same object, so each file does not pay for a pandas conversion."""
-    info = pandas_tzinfo(tz)
-    return info if isinstance(info, ZoneInfo) or info is dt.timezone.utc else None
-
-
-_COLUMNS: dict[tuple[tuple[str, ...], str], int | None] = {}
-
-
-def _find_column(header: list[str], name: str) -> int | None:
-    """``find_column``, remembered per (header, name): a missing optional column costs a normalising scan."""
-    key = (tuple(header), name)
-    try:
-        return _COLUMNS[key]
-    except KeyError:
-        pass
-    except TypeError:  # an unhashable name: find_column says what it says
-        return find_column(header, name)
-    j = find_column(header, name)
-    if len(_COLUMNS) >= 1024:
-        _COLUMNS.clear()
-    _COLUMNS[key] = j
-    return j
-
-
-_ONE_DAY = dt.timedelta(days=1)
-_combine = dt.datetime.combine
 _UNSEEN = object()
 # Pure text look-ups, remembered across files (bounded): no zone, no night in them.
-_CLOCKS: dict[str, tuple[dt.time, dt.time, bool]] = {}  # valid HH:MM[:SS] text -> (time, time fold=1, before noon)
+_CLOCKS: dict[str, dt.time] = {}  # valid clock text -> its time
 _NUMBERS: dict[str, float | None] = {}  # number text -> _parse_number's result
 
 
-def _clock_of(text: str) -> tuple[dt.time, dt.time, bool] | None | bool:
-    """An HH:MM[:SS] text as (time, same time with fold=1, before noon); None if out of range; False if not a clock."""
+def _clock_of(text: str) -> dt.time | None | bool:
+    """An HH:MM[:SS] text (24-hour, or 12-hour with AM/PM) as a time; None if out of range; False if not a clock."""
     parsed = _CLOCKS.get(text)
     if parsed is not None:
         return parsed
-    m = _CLOCK_RE.match(text)
-    if not m:
+    if not _CLOCK_RE.match(text):
         return False
-    hour, minute, second = int(m.group(1)), int(m.group(2)), int(m.group(3) or 0)
-    if hour > 23 or minute > 59 or second > 59:
+    hms = parse_clock(text)
+    if hms is None:
         return None
-    clock = dt.time(hour, minute, second)
     if len(_CLOCKS) >= 4096:
         _CLOCKS.clear()
-    _CLOCKS[text] = parsed = (clock, dt.time(hour, minute, second, fold=1), clock < NOON)
+    _CLOCKS[text] = parsed = dt.time(*hms)
     return parsed
 
 
-def _parse_time(
-    text: str, night: dt.date, tz: str, clock_reader: _ClockReader | None = None
-) -> tuple[pd.Timestamp | None, str]:
+def _parse_time(text: str, night: dt.date, tz: str) -> tuple[pd.Timestamp | None, str]:
     """A diary clock time (noon rule) or ISO timestamp as a tz-aware local Timestamp, with a note if odd."""
     parsed = _clock_of(text)
     if parsed is None:
         return None, ""
     if parsed is not False:
-        clock = parsed[0]
-        if clock_reader is not None:
-            return clock_reader(clock, night)
-        value = clock_on_night(clock, night, tz)
-        return value, _dst_note(value, clock)
+        return _noted(*place_clock(parsed, night, tz))
     if not _DATE_RE.match(text):
         return None, ""
     try:
@@ -317,18 +212,18 @@ def _parse_time(
         return None, ""
     if ts.tzinfo is not None:
         return ts.tz_convert(tz), ""
-    value = localize(ts, tz)
-    return value, _dst_note(value, ts.time())
+    if ts.nanosecond:
+        return localize(ts, tz), ""
+    return _noted(*place_wall(ts.to_pydatetime(), tz))
 
 
-def _dst_note(value: pd.Timestamp, clock: dt.time) -> str:
-    """Say so when a wall time did not exist (spring gap) or occurred twice (autumn) in the zone."""
-    if value.time() != clock:
-        return f"does not exist on that day (spring-forward gap); read as {value:%H:%M%z}"
-    other = localize(value.tz_localize(None), str(value.tz), fold=1)
-    if other != value:
-        return f"occurs twice on that day (autumn change); read as the first, {value:%H:%M%z}"
-    return ""
+def _noted(value: pd.Timestamp, kind: str) -> tuple[pd.Timestamp, str]:
+    """The QC note for a wall time that did not exist (spring gap) or occurred twice (autumn)."""
+    if kind == GAP:
+        return value, f"does not exist on that day (spring-forward gap); read as {value:%H:%M%z}"
+    if kind == REPEAT:
+        return value, f"occurs twice on that day (autumn change); read as the first, {value:%H:%M%z}"
+    return value, ""
 
 
 def _parse_number(text: str) -> float | None:

@@ -13,7 +13,7 @@ from pathlib import Path
 from typing import Callable, Iterable
 
 
-from sleepfuse.model.config import StudyConfig, load_config
+from sleepfuse.model.config import FilesSection, StudyConfig, load_config
 from sleepfuse.model.errors import ReadError
 from sleepfuse.model.qc import QCLog
 from sleepfuse.model.records import (  # noqa: F401  (SOURCES and the night rules re-exported)
@@ -70,7 +70,7 @@ def discover(config: StudyConfig, qc: QCLog) -> StudyFiles:
     all_files: list[Path] = []
     allowed = set(config.study.participants)
     for source, pattern in patterns.items():
-        for path in sorted(root.glob(pattern)):
+        for path in _matching(root, source, pattern):
             if not path.is_file():
                 continue
             all_files.append(path)
@@ -102,6 +102,23 @@ def discover(config: StudyConfig, qc: QCLog) -> StudyFiles:
     return StudyFiles(by_participant, combined, all_files)
 
 
+# With the default patterns, each folder also takes the other file types a lab saves (any case).
+KNOWN_SUFFIXES = {
+    "psg": (".edf", ".bdf", ".csv", ".tsv", ".txt"),
+    "actigraphy": (".csv", ".tsv", ".txt"),
+    "diary": (".csv", ".tsv", ".txt", ".xlsx", ".xlsm", ".ods"),
+}
+TEXT_HYPNOGRAM_SUFFIXES = (".csv", ".tsv", ".txt")
+
+
+def _matching(root: Path, source: str, pattern: str) -> list[Path]:
+    """Files of ``source``: the pattern's, or with the default pattern every known file type in its folder."""
+    if pattern != getattr(FilesSection(), source):
+        return sorted(root.glob(pattern))
+    return sorted(p for p in root.glob(f"{source}/*") if p.suffix.lower() in KNOWN_SUFFIXES[source]
+                  and not p.name.startswith((".", "~$")))
+
+
 def _rel(path: Path, root: Path) -> str:
     try:
         return str(path.relative_to(root))
@@ -117,6 +134,11 @@ def _report_problems(qc: QCLog, problems: Iterable[Problem], *, file: str, parti
 
 
 def read_hypnogram_file(config: StudyConfig, path: Path) -> Hypnogram:
+    if path.suffix.lower() in TEXT_HYPNOGRAM_SUFFIXES:
+        from sleepfuse.readers.hypnogram_text import read_text_hypnogram
+
+        return read_text_hypnogram(path, config.timezone, epoch_s=config.psg.epoch_s, labels=config.psg.labels,
+                                   date_order=config.study.date_order)
     from sleepfuse.readers.edf import read_hypnogram
 
     return read_hypnogram(
@@ -132,13 +154,15 @@ def read_hypnogram_file(config: StudyConfig, path: Path) -> Hypnogram:
 def read_actigraphy_file(config: StudyConfig, path: Path) -> ActigraphyRecord:
     from sleepfuse.readers.actigraphy import read_actigraphy
 
-    return read_actigraphy(path, config.timezone, columns=config.actigraphy.columns)
+    return read_actigraphy(path, config.timezone, columns=config.actigraphy.columns,
+                           date_order=config.study.date_order)
 
 
 def read_diary_file(config: StudyConfig, path: Path, participant: str | None):
     from sleepfuse.readers.diary import read_diary
 
-    return read_diary(path, config.timezone, columns=config.diary.columns, participant=participant)
+    return read_diary(path, config.timezone, columns=config.diary.columns, participant=participant,
+                      sheet=config.diary.sheet, date_order=config.study.date_order)
 
 
 def load_participant(
