@@ -25,8 +25,10 @@ def register(sub) -> None:
     register_batch(sub)
 
     from sleepfuse.explore.cli import add_explore_parser
+    from sleepfuse.cli.inspect_command import add_inspect_parser
     from sleepfuse.cli.open_command import add_open_parser
 
+    add_inspect_parser(sub)
     add_explore_parser(sub)
     add_open_parser(sub)
 
