@@ -81,6 +81,15 @@ def read_raw(path: Path) -> bytes:
     return _file_bytes(path)
 
 
+def fast_dialect(raw: bytes, bom: bool) -> Dialect:
+    """The dialect of a file the fast path read: header on line 1, its delimiter, its line ends."""
+    end = raw.find(b"\n")
+    header_line = (raw if end < 0 else raw[:end]).decode("utf-8", errors="replace").rstrip("\r")
+    return Dialect(encoding="utf-8 with BOM" if bom else ("ascii" if raw[:65536].isascii() else "utf-8"),
+                   line_end="CRLF" if end > 0 and raw[end - 1:end] == b"\r" else "LF",
+                   delimiter=_sniff_delimiter(header_line))
+
+
 def plain_text(raw: bytes) -> bool:
     """True for UTF-8 (or ASCII) bytes without NULs: the fast readers' input."""
     if b"\x00" in raw:

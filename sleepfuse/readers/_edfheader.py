@@ -22,6 +22,8 @@ from pathlib import Path
 from sleepfuse.model.errors import ReadError
 
 ANNOTATION_LABEL = "EDF Annotations"
+ANNOTATION_LABELS = ("edf annotations", "bdf annotations")  # EDF+ and BDF+ (24-bit) annotation signals
+BDF_VERSION = b"\xffBIOSEMI"
 _INT = re.compile(r"^[+-]?\d+$")
 _FLOAT = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
 _DATE = re.compile(r"^(\d\d)\D(\d\d)\D(\d\d)$")
@@ -43,7 +45,7 @@ class SignalHeader:
 
     @property
     def is_annotation(self) -> bool:
-        return self.label.strip().lower() == ANNOTATION_LABEL.lower()
+        return self.label.strip().lower() in ANNOTATION_LABELS
 
 
 @dataclass(frozen=True)
@@ -58,6 +60,7 @@ class EdfHeader:
     record_bytes: int
     signals: tuple[SignalHeader, ...]
     notes: tuple[str, ...] = ()  # non-fatal header problems
+    sample_bytes: int = 2  # 2 for EDF, 3 for BDF (24-bit)
 
     @property
     def annotation_indices(self) -> list[int]:
@@ -124,10 +127,12 @@ def read_header(path: Path, raw: bytes, file_bytes: int) -> EdfHeader:
     """Parse and validate the header bytes ``raw`` (at least the first 256 bytes of the file)."""
     if file_bytes < 256 or len(raw) < 256:
         raise ReadError(path, f"not an EDF file: {file_bytes} bytes, shorter than the 256-byte EDF header")
-    if raw[:1] == b"\xff":
-        raise ReadError(path, "BDF (24-bit) files are not supported; only EDF and EDF+ (16-bit) are read")
-    if raw[:8] != b"0       ":
+    bdf = raw[:8] == BDF_VERSION
+    if raw[:1] == b"\xff" and not bdf:
+        raise ReadError(path, "not a BDF file: the header starts with byte 0xff but not 0xff 'BIOSEMI'")
+    if raw[:8] != b"0       " and not bdf:
         raise ReadError(path, "not an EDF file: the header does not start with version '0'")
+    width = 3 if bdf else 2  # bytes per sample: BDF stores 24-bit samples
     notes: list[str] = []
     start = _start_datetime(path, raw, notes)
     ns = _field_int(path, raw[252:256], "number of signals")
@@ -140,7 +145,8 @@ def read_header(path: Path, raw: bytes, file_bytes: int) -> EdfHeader:
     if stated != header_bytes:
         notes.append(f"header states {stated} header bytes; {header_bytes} (256 × (1 + {ns} signals)) are used")
     reserved = _ascii(raw[192:236])
-    variant = "EDF+D" if reserved.startswith("EDF+D") else "EDF+C" if reserved.startswith("EDF+C") else "EDF"
+    # BDF+ writes "BDF+C"/"BDF+D" where EDF+ writes "EDF+C"/"EDF+D"; both read the same way.
+    variant = "EDF+D" if reserved[1:].startswith("DF+D") else "EDF+C" if reserved[1:].startswith("DF+C") else "EDF"
     n_records = _field_int(path, raw[236:244], "number of data records")
     duration = _field_float(path, raw[244:252], "duration of a data record")
     if not math.isfinite(duration) or duration < 0:
@@ -170,7 +176,7 @@ def read_header(path: Path, raw: bytes, file_bytes: int) -> EdfHeader:
             ok = _INT.match(text) if conv is int else _FLOAT.match(text)
             values.append(conv(text) if ok else None)
         signals.append(SignalHeader(label, *values, n_samples=n_samples, offset=byte_offset))
-        byte_offset += 2 * n_samples
+        byte_offset += width * n_samples
     record_bytes = byte_offset
     if record_bytes <= 0:
         raise ReadError(path, "header says every data record is 0 bytes long")
@@ -191,4 +197,5 @@ def read_header(path: Path, raw: bytes, file_bytes: int) -> EdfHeader:
         notes.append(f"{file_bytes - expected} bytes after the last data record are ignored")
     if n_records == 0:
         raise ReadError(path, "the file holds no data records")
-    return EdfHeader(start, variant, header_bytes, n_records, duration, record_bytes, tuple(signals), tuple(notes))
+    return EdfHeader(start, variant, header_bytes, n_records, duration, record_bytes, tuple(signals), tuple(notes),
+                     sample_bytes=width)

@@ -102,7 +102,7 @@ def read_annotation_lists(path: Path, header: EdfHeader, records: np.ndarray) ->
     bad = missing_keeper = 0
     for j, k in enumerate(indices):
         s = header.signals[k]
-        block = np.ascontiguousarray(records[:, s.offset : s.offset + 2 * s.n_samples])
+        block = np.ascontiguousarray(records[:, s.offset : s.offset + header.sample_bytes * s.n_samples])
         *columns, n_bad, n_missing = _signal_annotations(block, onsets if j == 0 else None)
         per_signal.append(columns)
         bad += n_bad
@@ -130,7 +130,7 @@ def read_annotations_careful(path: Path, header: EdfHeader, records: np.ndarray)
     blocks = []
     for k in indices:
         s = header.signals[k]
-        blocks.append(np.ascontiguousarray(records[:, s.offset : s.offset + 2 * s.n_samples]))
+        blocks.append(np.ascontiguousarray(records[:, s.offset : s.offset + header.sample_bytes * s.n_samples]))
     annotations: list[Annotation] = []
     bad = missing_keeper = 0
     for r in range(n):
@@ -167,6 +167,11 @@ def physical_samples(path: Path, header: EdfHeader, records: np.ndarray, index: 
     pmin, pmax, dmin, dmax = cal
     if dmax == dmin or pmax == pmin:
         raise ReadError(path, f"signal {s.label!r} has equal minimum and maximum; its values cannot be calibrated")
-    raw = np.ascontiguousarray(records[:, s.offset : s.offset + 2 * s.n_samples])
-    digital = raw.view("<i2").astype(np.float64)
+    raw = np.ascontiguousarray(records[:, s.offset : s.offset + header.sample_bytes * s.n_samples])
+    if header.sample_bytes == 3:  # BDF: 24-bit little-endian two's complement
+        b = raw.reshape(raw.shape[0], -1, 3).astype(np.int32)
+        digital = (b[..., 0] | (b[..., 1] << 8) | (b[..., 2] << 16)).astype(np.float64)
+        digital[digital >= 1 << 23] -= 1 << 24
+    else:
+        digital = raw.view("<i2").astype(np.float64)
     return pmin + (digital - dmin) * ((pmax - pmin) / (dmax - dmin))

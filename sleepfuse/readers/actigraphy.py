@@ -20,7 +20,7 @@ from sleepfuse.model.records import ActigraphyRecord, Problem
 from sleepfuse.model.clock import zone
 from ._actigraphy_table import ROLES, parse_counts, parse_flags, read_careful, unmapped_optional
 from ._columns import match_columns
-from ._csvtext import BOM, MAX_DETAILED, line_phrase, plain_text, read_fast_columns, read_raw
+from ._csvtext import BOM, MAX_DETAILED, fast_dialect, line_phrase, plain_text, read_fast_columns, read_raw
 from ._csvtime import _localize_wall
 
 ACTIGRAPHY_DEFAULT_COLUMNS = {"timestamp": "timestamp", "counts": "counts", "off_wrist": "off_wrist", "marker": "marker"}
@@ -49,7 +49,8 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None, dat
     names.update(columns or {})
     raw = read_raw(path)
     digest = hashlib.sha256(raw).hexdigest()  # provenance of exactly the bytes read
-    raw = raw[3:] if raw.startswith(BOM) else raw
+    bom = raw.startswith(BOM)
+    raw = raw[3:] if bom else raw
     fast = _read_plain(raw, names, tz) if FAST_PATH and plain_text(raw) else None
     detected: dict[str, str] = {}
     header_epoch = None
@@ -58,11 +59,13 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None, dat
         header, instants, lines_ok, values, local_problems = fast
         match = match_columns(header, ROLES, columns, names)
         problems = unmapped_optional(header, match.index, names, columns) + local_problems
-        detected = {"dialect": "plain (UTF-8, comma, header on line 1)", "columns": match.describe(header),
+        dialect = fast_dialect(raw, bom)
+        detected = {"dialect": dialect.describe(), "columns": match.describe(header),
                     "time stamps": f"{names['timestamp']!r}: ISO 8601"}
         if match.unknown:
             detected["unused columns"] = ", ".join(map(repr, match.unknown))
-            problems.insert(0, Problem("info", f"columns not used: {detected['unused columns']}"))
+        if match.unknown or not dialect.plain:
+            problems.insert(0, Problem("info", "read as: " + "; ".join(f"{k}: {v}" for k, v in detected.items())))
         rows = None
     else:
         instants, lines_ok, rows, col, problems, detected, header_epoch, decimal = read_careful(

@@ -119,7 +119,8 @@ def read_text_hypnogram(path, tz: str, *, epoch_s: float = 30.0, labels: dict[st
         problems.append(Problem("warning", "lights on is not after lights off; lights on is ignored", lights_on))
         lights_on = None
     detected["epochs"] = f"{stages.size} × {epoch_s:g} s"
-    detected["lights rows"] = "yes" if lights["off"].size or lights["on"].size else "none (first to last scored epoch)"
+    detected["lights rows"] = ("yes" if lights["off"].size or lights["on"].size
+                               else "none: first to last scored epoch")
     problems.insert(0, Problem("info", "read as: " + "; ".join(f"{k}: {v}" for k, v in detected.items())))
     return Hypnogram(path, start, start, float(epoch_s), stages, lights_off, lights_on, unknown, problems,
                      sha256=digest, detected=detected)

@@ -27,7 +27,7 @@ class FileReport:
     source: str
     participant: str
     detected: dict[str, str] = field(default_factory=dict)
-    nights: list[dt.date] = field(default_factory=list)
+    nights: list[tuple[str, dt.date]] = field(default_factory=list)  # (participant, night) read
     error: str = ""
     warnings: int = 0
 
@@ -46,8 +46,8 @@ class Survey:
         """participant -> source -> number of distinct nights read."""
         out: dict[str, dict[str, set]] = {}
         for f in self.files:
-            for night in f.nights:
-                out.setdefault(f.participant or "?", {}).setdefault(f.source, set()).add(night)
+            for who, night in f.nights:
+                out.setdefault(who, {}).setdefault(f.source, set()).add(night)
         return {p: {s: len(n) for s, n in sorted(by.items())} for p, by in sorted(out.items())}
 
 
@@ -100,7 +100,7 @@ def _span(record) -> dict[str, str]:
         out = {"time span": f"{record.start:%Y-%m-%d %H:%M} to {record.end:%Y-%m-%d %H:%M} ({record.start:%Z})"}
         if isinstance(record, Hypnogram):
             out["epoch length"] = f"{record.epoch_s:g} s"
-            out["lights"] = ("off and on" if record.lights_off is not None and record.lights_on is not None else
+            out["lights"] = record.detected.get("lights rows") or ("off and on" if record.lights_off is not None and record.lights_on is not None else
                              "missing: first to last scored epoch")
         else:
             out["epoch length"] = f"{record.epoch_s} s"
@@ -115,12 +115,12 @@ def _span(record) -> dict[str, str]:
     return {}
 
 
-def _nights(record, participant: str) -> list[dt.date]:
+def _nights(record, participant: str) -> list[tuple[str, dt.date]]:
     if isinstance(record, Hypnogram):
-        return [hypnogram_night(record)]
+        return [(participant, hypnogram_night(record))]
     if isinstance(record, ActigraphyRecord):
-        return actigraphy_nights(record)
-    return [e.night for e in record.entries]
+        return [(participant, n) for n in actigraphy_nights(record)]
+    return [(e.participant, e.night) for e in record.entries]
 
 
 def _toml_string(text: str) -> str:
