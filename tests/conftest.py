@@ -30,7 +30,7 @@ def make_messy_study(root: Path) -> Path:
     (root / "psg" / "P03_truncated.edf").write_bytes(good[: len(good) // 2])  # truncated EDF
     (root / "psg" / "P04_garbage.edf").write_bytes(b"this is not an EDF file at all\n" * 20)
     (root / "actigraphy" / "P03_empty.csv").write_bytes(b"")  # empty CSV
-    (root / "actigraphy" / "P04_wrongcols.csv").write_text("time,activity\n2026-10-27T12:00:00,5\n")
+    (root / "actigraphy" / "P04_wrongcols.csv").write_text("moment,level\n2026-10-27T12:00:00,5\n")  # no name we know
     (root / "diary" / "P05_diary.csv").write_text(
         "night,bedtime,tried_to_sleep,sol_min,nwak,waso_min,final_awakening,out_of_bed,quality\n"
         "2026-10-28,22:40,23:00,15,2,20,06:30,07:00,3\n"

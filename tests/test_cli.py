@@ -43,7 +43,7 @@ def test_check_messy_study_reports_every_problem(messy_study, capsys):
     assert "P03_truncated.edf" in out and "truncated" in out
     assert "P04_garbage.edf" in out
     assert "P03_empty.csv" in out
-    assert "P04_wrongcols.csv" in out and "time, activity" in out.replace("'", "")
+    assert "P04_wrongcols.csv" in out and "moment, level" in out.replace("'", "")
     assert "X99" in out and "not in [study] participants" in out
     assert "rejected" in out and "P05" in out
     assert "lots" in out  # the bad number is named

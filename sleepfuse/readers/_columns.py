@@ -50,6 +50,12 @@ def normalise_name(name: str) -> str:
     return _SEPARATORS.sub("", (bare or text).casefold())
 
 
+def _unit_of(name: str) -> str:
+    """The normalised text of a trailing bracket ("Movement (counts)" -> "counts"), or ""."""
+    m = _UNIT.search(str(name).strip())
+    return _SEPARATORS.sub("", m.group(0).strip().strip("()[]").casefold()) if m else ""
+
+
 @dataclass
 class ColumnMatch:
     """Where each role sits in a header (None: absent), how it was found, and the columns left over."""
@@ -97,9 +103,13 @@ def match_columns(header: list[str], roles: tuple[str, ...], explicit: dict[str,
                 how[role] = "name"
         if index[role] is not None:
             taken.add(index[role])
+    units = [_unit_of(h) for h in header]
     for role in roles:
         if index[role] is None and role not in explicit:
             j = first(SYNONYMS.get(role, ()), "synonym")
+            if j is None:  # "Movement (counts)": the unit in brackets names the role
+                keys = {normalise_name(n) for n in (role, *SYNONYMS.get(role, ()))}
+                j = next((k for k, u in enumerate(units) if u in keys and k not in taken), None)
             if j is not None:
                 index[role], how[role] = j, "synonym"
                 taken.add(j)
