@@ -11,13 +11,17 @@ from sleepfuse.model.errors import ReadError
 from sleepfuse.readers.actigraphy import read_actigraphy
 from sleepfuse.readers.diary import read_diary
 from sleepfuse.readers.edf import read_hypnogram
+from sleepfuse.readers.hypnogram_text import read_text_hypnogram
 
 TZ = "Europe/Berlin"
 READERS = {
     "edf": lambda p: read_hypnogram(p, TZ),
     "actigraphy": lambda p: read_actigraphy(p, TZ),
     "diary": lambda p: read_diary(p, TZ, participant="P1"),
+    "diary workbook": lambda p: read_diary(p, TZ, participant="P1"),
+    "text hypnogram": lambda p: read_text_hypnogram(p, TZ),
 }
+SUFFIX = {"diary workbook": ".xlsx", "text hypnogram": ".txt"}  # the file type that picks the reader's path
 BAD_CONTENTS = {
     "empty": b"",
     "garbage": bytes(range(256)) * 8,
@@ -29,7 +33,7 @@ BAD_CONTENTS = {
 @pytest.mark.parametrize("reader", READERS)
 @pytest.mark.parametrize("content", BAD_CONTENTS)
 def test_bad_file_raises_read_error_naming_file(tmp_path, reader, content):
-    path = tmp_path / f"P1_{content}.dat"
+    path = tmp_path / f"P1_{content}{SUFFIX.get(reader, '.dat')}"
     path.write_bytes(BAD_CONTENTS[content])
     before = hashlib.sha256(path.read_bytes()).hexdigest()
     with pytest.raises(ReadError) as info:
@@ -40,7 +44,7 @@ def test_bad_file_raises_read_error_naming_file(tmp_path, reader, content):
 
 @pytest.mark.parametrize("reader", READERS)
 def test_missing_file_and_folder(tmp_path, reader):
-    for path in (tmp_path / "P1_missing.csv", tmp_path):
+    for path in (tmp_path / f"P1_missing{SUFFIX.get(reader, '.csv')}", tmp_path):
         with pytest.raises(ReadError) as info:
             READERS[reader](path)
         assert str(path) in str(info.value)

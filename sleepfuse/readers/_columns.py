@@ -10,6 +10,7 @@ are one name.
 
 from __future__ import annotations
 
+import functools
 import re
 from dataclasses import dataclass, field
 
@@ -43,6 +44,7 @@ _UNIT = re.compile(r"\s*[\(\[][^\)\]]*[\)\]]\s*$")
 _SEPARATORS = re.compile(r"[\s_\-/.]+")
 
 
+@functools.lru_cache(maxsize=4096)
 def normalise_name(name: str) -> str:
     """A column name for comparison: no case, no separators, no trailing unit in brackets."""
     text = str(name).strip().strip('"').strip()
@@ -129,11 +131,16 @@ def suggest(name: str, header: list[str]) -> str | None:
 def role_counter(roles: tuple[str, ...], explicit: dict[str, str] | None = None,
                  defaults: dict[str, str] | None = None):
     """``fields -> how many of them name a role``: finds the header row below metadata lines."""
-    names = {normalise_name(n) for role in roles for n in ((explicit or {}).get(role, ""),
-                                                            (defaults or {}).get(role, role), *SYNONYMS.get(role, ()))
-             if n}
+    names = _names(tuple(roles), tuple(sorted((explicit or {}).items())), tuple(sorted((defaults or {}).items())))
 
     def count(fields: list[str]) -> int:
-        return len({normalise_name(f) for f in fields} & names)
+        return len({normalise_name(f) for f in fields if f and not f.lstrip()[:1].isdigit()} & names)
 
     return count
+
+
+@functools.lru_cache(maxsize=64)
+def _names(roles, explicit, defaults) -> frozenset[str]:
+    explicit, defaults = dict(explicit), dict(defaults)
+    return frozenset(normalise_name(n) for role in roles
+                     for n in (explicit.get(role, ""), defaults.get(role, role), *SYNONYMS.get(role, ())) if n)

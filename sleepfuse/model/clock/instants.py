@@ -44,17 +44,22 @@ def localize(naive: pd.Timestamp | dt.datetime, tz: str, *, fold: int = 0) -> pd
 
 
 def place_wall(wall: dt.datetime, tz: str) -> tuple[pd.Timestamp, str]:
-    """``localize(wall, tz)`` and what was odd about it: ``GAP``, ``REPEAT`` or "" (PEP 495 steps
-    on the zone pandas uses, so the timestamp carries pandas' own tzinfo)."""
+    """``localize(wall, tz)`` and what was odd about it: ``GAP``, ``REPEAT`` or "" (PEP 495 on the
+    zone pandas uses, so the timestamp carries pandas' own tzinfo)."""
     info = pandas_tzinfo(tz)
-    first = wall.replace(tzinfo=info, fold=0).astimezone(_UTC)
-    local = first.astimezone(info)
-    value = pd.Timestamp(local)
-    if local.replace(tzinfo=None) != wall:
-        return value, GAP
-    if wall.replace(tzinfo=info, fold=1).utcoffset() != local.utcoffset():
-        return value, REPEAT
-    return value, ""
+    return place_aware(wall.replace(tzinfo=info, fold=0), info)
+
+
+def place_aware(aware: dt.datetime, info: dt.tzinfo) -> tuple[pd.Timestamp, str]:
+    """``place_wall`` for a wall time already carrying ``info`` (fold 0): the PEP 495 steps
+    ``astimezone`` takes (UTC of the wall time, back through ``fromutc``), then the fold check."""
+    offset = aware.utcoffset()
+    local = info.fromutc(aware - offset)
+    if local != aware:  # same tzinfo: compares the wall fields; a gap time comes back shifted
+        return pd.Timestamp(local), GAP
+    if aware.replace(fold=1).utcoffset() != offset:
+        return pd.Timestamp(local), REPEAT
+    return pd.Timestamp(local), ""
 
 
 def wall_to_utc(wall_us: np.ndarray, tz: str) -> tuple[np.ndarray, np.ndarray]:

@@ -7,7 +7,8 @@ import datetime as dt
 import numpy as np
 import pandas as pd
 
-from .instants import localize, place_wall
+from .instants import localize, place_aware
+from .zones import pandas_tzinfo
 
 NOON = dt.time(12, 0)
 _ONE_DAY = dt.timedelta(days=1)
@@ -36,7 +37,10 @@ def place_clock(clock: dt.time, night: dt.date, tz: str) -> tuple[pd.Timestamp, 
     """An HH:MM clock time placed by the noon rule (at/after 12:00 on the night's date, before
     12:00 on the next day; common practice, DESIGN.md), and ``GAP``/``REPEAT``/"" as ``place_wall``."""
     day = night if clock >= NOON else night + _ONE_DAY
-    return place_wall(dt.datetime.combine(day, clock.replace(tzinfo=None, fold=0)), tz)
+    if clock.tzinfo is not None or clock.fold:
+        clock = clock.replace(tzinfo=None, fold=0)
+    info = pandas_tzinfo(tz)
+    return place_aware(dt.datetime.combine(day, clock, info), info)
 
 
 def clock_on_night(clock: dt.time, night: dt.date, tz: str) -> pd.Timestamp:
