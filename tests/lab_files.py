@@ -109,3 +109,17 @@ def resave(clean: Path, root: Path, actigraphy_style: str, diary_style: str) -> 
         df = pd.read_csv(src, dtype=str, keep_default_na=False)
         diary_styles()[diary_style](df, root / "diary" / src.stem)
     return root
+
+
+def psg_as_text(edf: Path, path: Path) -> None:
+    """An EDF+ hypnogram re-saved as a text hypnogram: one row per 30-s epoch, lights rows, day-first
+    date-times with fractional seconds, tab-separated."""
+    from sleepfuse.model.stages import STAGE_NAMES, Stage
+    from sleepfuse.readers.edf import read_hypnogram
+
+    h = read_hypnogram(edf, "America/Chicago")
+    rows = [(t, STAGE_NAMES[Stage(int(c))]) for t, c in zip(h.epoch_times(), h.stages)]
+    rows += [(t, label) for t, label in ((h.lights_off, "Lights off"), (h.lights_on, "Lights on")) if t is not None]
+    rows.sort(key=lambda r: r[0])
+    lines = ["Date/Time\tSleep stage"] + [f"{t:%d/%m/%Y %H:%M:%S.%f}\t{label}" for t, label in rows]
+    _text(lines, path.with_suffix(".tsv"))

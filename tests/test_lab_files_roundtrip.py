@@ -8,7 +8,7 @@ import shutil
 import pandas as pd
 import pytest
 
-from lab_files import SAMPLE, actigraphy_styles, clean_study, diary_styles, resave
+from lab_files import SAMPLE, actigraphy_styles, clean_study, diary_styles, psg_as_text, resave
 from sleepfuse.run.participant import run_study
 
 PAIRS = list(zip(actigraphy_styles(), [*diary_styles(), "workbook_xlsx"]))
@@ -38,3 +38,20 @@ def test_resaved_study_gives_the_same_night_table(clean, tmp_path, actigraphy_st
     assert len(nights) > 20 and set(nights["source"]) == {"psg", "actigraphy", "diary"}
     pd.testing.assert_frame_equal(result.nights, nights)
     assert problems(result) == clean_problems
+
+
+def test_psg_saved_as_text_hypnograms_gives_the_same_psg_nights(clean, tmp_path):
+    root, nights, _ = clean
+    messy = tmp_path / "messy"
+    shutil.copytree(root, messy)
+    for edf in sorted((messy / "psg").glob("*.edf")):
+        psg_as_text(edf, edf)  # tab-separated, day-first date-times with microseconds, lights rows
+        edf.unlink()
+    got = run_study(messy, keep_detail=False).nights
+    psg, ref = got[got.source == "psg"].reset_index(drop=True), nights[nights.source == "psg"].reset_index(drop=True)
+    assert len(ref) == 2
+    # The text holds microseconds; the EDF's float onsets can carry nanoseconds: the window ends agree to 1 µs.
+    ends = (pd.to_datetime(psg.pop("window_end"), format="ISO8601", utc=True)
+            - pd.to_datetime(ref.pop("window_end"), format="ISO8601", utc=True))
+    assert (ends.abs() < pd.Timedelta(microseconds=1)).all()
+    pd.testing.assert_frame_equal(psg, ref)

@@ -57,6 +57,17 @@ def test_lights_rows_set_the_opportunity_and_gaps_are_unscored(tmp_path):
     assert h.lights_on.isoformat() == "2026-05-14T23:02:30+02:00"
 
 
+def test_lights_in_an_event_column(tmp_path):
+    t = times(4)
+    rows = [f"{t[0]:%Y-%m-%d %H:%M:%S};Lights off;", f"{t[0]:%Y-%m-%d %H:%M:%S};;W", f"{t[1]:%Y-%m-%d %H:%M:%S};;N1",
+            f"{t[2]:%Y-%m-%d %H:%M:%S};;N2", f"{t[3]:%Y-%m-%d %H:%M:%S};Lights on;W"]
+    path = tmp_path / "P01_night1.csv"
+    path.write_text("Date/Time;Event;Sleep stage\n" + "\n".join(rows) + "\n")
+    h = read_text_hypnogram(path, TZ)
+    assert h.stages.tolist() == [0, 1, 2, 0]
+    assert (h.lights_off.isoformat(), h.lights_on.isoformat()) == ("2026-05-14T23:00:00+02:00", "2026-05-14T23:01:30+02:00")
+
+
 def test_unknown_labels_are_unscored_and_reported(tmp_path):
     path = tmp_path / "P01_night1.csv"
     path.write_text("timestamp,stage\n" + "".join(f"{t:%Y-%m-%dT%H:%M:%S},{s}\n" for t, s in zip(times(3), ["W", "Z9", "N2"])))

@@ -27,7 +27,7 @@ from ._csvtime import metadata_start, parse_stamps
 from ._stamps import DateOrderConflict, DateOrderUnsettled
 from .stage_labels import DEFAULT_SIGNAL_CODES, TARGET_CODES, lights_marker, merged_labels, normalise_label
 
-ROLES = ("timestamp", "date", "time", "epoch", "stage")
+ROLES = ("timestamp", "date", "time", "epoch", "stage", "marker")  # marker: an event column with lights rows
 MAX_EPOCHS = 14 * 2880  # two weeks of 30-s epochs: longer is a damaged file
 _US = 1_000_000
 
@@ -86,8 +86,12 @@ def read_text_hypnogram(path, tz: str, *, epoch_s: float = 30.0, labels: dict[st
     texts = cells[col["stage"]].str.strip().to_numpy()[ok]
     instants, lines = instants[ok], lines[ok]
     marks = np.array([lights_marker(t) or "" for t in texts])
-    lights = {k: instants[marks == k] for k in ("off", "on")}
     epoch = marks == ""
+    if col["marker"] is not None:  # lights in an event column: on a row of its own, or beside a stage
+        events = np.array([lights_marker(t) or "" for t in cells[col["marker"]].str.strip().to_numpy()[ok]])
+        epoch &= ~((texts == "") & (events != ""))
+        marks = np.where(marks == "", events, marks)
+    lights = {k: instants[marks == k] for k in ("off", "on")}
     t0 = int(instants[epoch].min()) if epoch.any() else None
     if t0 is None:
         raise ReadError(path, "no stage rows (only lights rows)")
