@@ -86,3 +86,13 @@ def test_column_matching_is_one_function_with_synonyms_explicit_names_and_unknow
     m = match_columns(header, roles, explicit={"counts": "lux"})  # study.toml wins, case-insensitive
     assert m.index["counts"] == 4 and m.how["counts"] == "study.toml"
     assert suggest("tried_to_slep", ["night", "tried_to_sleep"]) == "tried_to_sleep"
+
+
+def test_time_cells_on_the_spreadsheet_day_zero_are_times_of_day():
+    from sleepfuse.readers._diary_table import _cell_text
+
+    # Spreadsheets store a time of day as a fraction of day zero (1899-12-30 in the 1900 date system).
+    assert _cell_text(dt.datetime(1899, 12, 30, 22, 30)) == "22:30:00"
+    assert _cell_text(dt.datetime(2026, 5, 15, 6, 45)) == "2026-05-15T06:45:00"
+    assert _cell_text(dt.time(6, 30)) == "06:30:00" and _cell_text(dt.date(2026, 5, 14)) == "2026-05-14"
+    assert _cell_text(15.0) == "15" and _cell_text(float("nan")) == ""

@@ -57,6 +57,16 @@ def test_lights_rows_set_the_opportunity_and_gaps_are_unscored(tmp_path):
     assert h.lights_on.isoformat() == "2026-05-14T23:02:30+02:00"
 
 
+def test_times_of_day_with_the_date_on_a_header_line_roll_over_midnight(tmp_path):
+    t = [dt.datetime(2026, 5, 14, 23, 59, 0) + dt.timedelta(seconds=30 * i) for i in range(4)]
+    path = tmp_path / "P01_night1.csv"
+    path.write_text("Recording date: 14.05.2026\nEpoch,Time,Stage\n"
+                    + "".join(f"{i + 1},{x:%H:%M:%S},{s}\n" for i, (x, s) in enumerate(zip(t, ["W", "N1", "N2", "N2"]))))
+    h = read_text_hypnogram(path, TZ)
+    assert h.stages.tolist() == [0, 1, 2, 2]
+    assert h.start.isoformat() == "2026-05-14T23:59:00+02:00" and h.end.isoformat() == "2026-05-15T00:01:00+02:00"
+
+
 def test_lights_in_an_event_column(tmp_path):
     t = times(4)
     rows = [f"{t[0]:%Y-%m-%d %H:%M:%S};Lights off;", f"{t[0]:%Y-%m-%d %H:%M:%S};;W", f"{t[1]:%Y-%m-%d %H:%M:%S};;N1",

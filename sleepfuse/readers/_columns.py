@@ -17,26 +17,32 @@ from dataclasses import dataclass, field
 # The trade's common names for each role (common practice; neutral words, no device's own layout).
 SYNONYMS: dict[str, tuple[str, ...]] = {
     # actigraphy
-    "timestamp": ("timestamp", "time stamp", "datetime", "date time", "date/time", "date_time", "epoch start"),
+    "timestamp": ("timestamp", "time stamp", "datetime", "date time", "date/time", "date_time", "date and time",
+                  "epoch start", "epoch start time"),
     "date": ("date", "day", "calendar date"),
     "time": ("time", "clock", "clock time", "time of day"),
-    "counts": ("counts", "count", "activity", "activity counts", "activity count", "activity score"),
+    "counts": ("counts", "count", "activity", "activity counts", "activity count", "activity score",
+               "counts per epoch", "activity level"),
     "off_wrist": ("off_wrist", "off wrist", "offwrist", "off-wrist", "non-wear", "nonwear", "non wear",
-                  "not worn", "off wrist flag", "non-wear flag"),
+                  "not worn", "off wrist flag", "non-wear flag", "off-wrist status", "non-wear status"),
     "marker": ("marker", "markers", "event", "events", "event marker", "marker flag", "button"),
     # text hypnograms
     "stage": ("stage", "stages", "sleep stage", "sleep stages", "hypnogram", "score", "scored stage", "label"),
     "epoch": ("epoch", "epoch number", "epoch no", "epoch nr", "epoch #", "#"),
     # diaries
     "participant": ("participant", "participant id", "participant_id", "subject", "subject id", "id", "pid"),
-    "night": ("night", "night date", "date of night", "evening", "date"),
-    "bedtime": ("bedtime", "bed time", "into bed", "got into bed", "went to bed", "in bed"),
-    "tried_to_sleep": ("tried_to_sleep", "tried to sleep", "lights off", "lights out", "try to sleep"),
-    "sol_min": ("sol_min", "sol", "sleep onset latency", "minutes to fall asleep", "sol (min)"),
+    "night": ("night", "night date", "date of night", "night of", "evening", "date", "diary date"),
+    "bedtime": ("bedtime", "bed time", "into bed", "got into bed", "went to bed", "in bed", "time into bed",
+                "time went to bed"),
+    "tried_to_sleep": ("tried_to_sleep", "tried to sleep", "lights off", "lights out", "try to sleep",
+                       "time tried to sleep", "attempted sleep"),
+    "sol_min": ("sol_min", "sol", "sleep onset latency", "minutes to fall asleep", "sleep latency"),
     "nwak": ("nwak", "awakenings", "number of awakenings", "n awakenings", "nawak"),
-    "waso_min": ("waso_min", "waso", "wake after sleep onset", "minutes awake"),
-    "final_awakening": ("final_awakening", "final awakening", "woke up", "final wake", "wake time"),
-    "out_of_bed": ("out_of_bed", "out of bed", "got up", "rise time", "got out of bed"),
+    "waso_min": ("waso_min", "waso", "wake after sleep onset", "minutes awake", "minutes awake during the night"),
+    "final_awakening": ("final_awakening", "final awakening", "woke up", "final wake", "wake time",
+                        "time of final awakening", "wake up time"),
+    "out_of_bed": ("out_of_bed", "out of bed", "got up", "rise time", "got out of bed", "time out of bed",
+                   "rising time"),
     "quality": ("quality", "sleep quality", "rating", "quality rating"),
 }
 

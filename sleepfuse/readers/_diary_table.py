@@ -153,7 +153,11 @@ def _cell_text(value) -> str:
         return "1" if value else "0"
     if isinstance(value, (pd.Timestamp, dt.datetime)):
         value = pd.Timestamp(value)
-        return value.strftime("%Y-%m-%dT%H:%M:%S") if not pd.isna(value) else ""
+        if pd.isna(value):
+            return ""
+        if value.year < 1901:  # a time cell stored on the spreadsheet's day zero (1899-12-30/31, 1900-01-00)
+            return value.strftime("%H:%M:%S")
+        return value.strftime("%Y-%m-%dT%H:%M:%S")
     if isinstance(value, dt.date):
         return value.isoformat()
     if isinstance(value, dt.time):

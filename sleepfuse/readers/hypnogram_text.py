@@ -18,13 +18,14 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from sleepfuse.model.clock import wall_to_utc
 from sleepfuse.model.errors import ConfigError, ReadError
 from sleepfuse.model.records import Hypnogram, Problem
 from sleepfuse.model.stages import STAGE_DTYPE, Stage
 from ._columns import match_columns, role_counter
 from ._csvtext import is_blank_row, line_phrase, missing_column_message, read_raw, read_table
 from ._csvtime import metadata_start, parse_stamps
-from ._stamps import DateOrderConflict, DateOrderUnsettled
+from ._stamps import DateOrderConflict, DateOrderUnsettled, parse_clock, parse_wall
 from .stage_labels import DEFAULT_SIGNAL_CODES, TARGET_CODES, lights_marker, merged_labels, normalise_label
 
 ROLES = ("timestamp", "date", "time", "epoch", "stage", "marker")  # marker: an event column with lights rows
@@ -57,7 +58,11 @@ def read_text_hypnogram(path, tz: str, *, epoch_s: float = 30.0, labels: dict[st
     detected = {"dialect": table.dialect.describe(), "columns": match.describe(table.header)}
     step = int(round(epoch_s * _US))
     try:
-        if col["timestamp"] is not None or (col["date"] is not None and col["time"] is not None):
+        clocks = _clock_only(cells, col)
+        if clocks is not None:  # times of day only: the date comes from a line above the header
+            instants, ok, fmt = _clocks_on_start_date(path, clocks, table.dialect.metadata, tz, date_order)
+            detected["time stamps"] = fmt
+        elif col["timestamp"] is not None or (col["date"] is not None and col["time"] is not None):
             stamps = (cells[col["timestamp"]] if col["timestamp"] is not None
                       else cells[col["date"]].str.strip() + " " + cells[col["time"]].str.strip()).str.strip()
             instants, ok, stamp_problems, fmt = parse_stamps(stamps, lines, tz, date_order)
@@ -128,6 +133,41 @@ def read_text_hypnogram(path, tz: str, *, epoch_s: float = 30.0, labels: dict[st
     problems.insert(0, Problem("info", "read as: " + "; ".join(f"{k}: {v}" for k, v in detected.items())))
     return Hypnogram(path, start, start, float(epoch_s), stages, lights_off, lights_on, unknown, problems,
                      sha256=digest, detected=detected)
+
+
+def _clock_only(cells: pd.DataFrame, col: dict) -> pd.Series | None:
+    """The time column when it holds times of day without a date (and no date column), else None."""
+    j = col["timestamp"] if col["date"] is None else None
+    if j is None:
+        return None
+    sample = [t for t in cells[j].str.strip().iloc[:20] if t]
+    return cells[j].str.strip() if sample and all(parse_clock(t) for t in sample) else None
+
+
+_DATE_KEYS = ("start date", "recording date", "date", "start", "recording start", "night", "study date")
+
+
+def _clocks_on_start_date(path, clocks: pd.Series, meta: dict[str, str], tz: str, date_order: str):
+    """Times of day on the recording's date (a line above the header), a day later each time the
+    clock steps back by more than 12 h (past midnight)."""
+    day = None
+    for key in _DATE_KEYS:
+        if key in meta:
+            wall, fmt = parse_wall(pd.Series([meta[key]]), date_order)
+            if fmt is not None and not np.isnat(wall[0]):
+                day = wall[0].astype("datetime64[D]")
+                break
+    if day is None:
+        raise ReadError(path, "times of day without a date: give the recording date on a line above the header "
+                              "(e.g. 'Date: 2026-05-14'), or a date column")
+    parts = [parse_clock(t) for t in clocks]
+    ok = np.array([p is not None for p in parts])
+    of_day = np.array([((p[0] * 60 + p[1]) * 60 + p[2]) * _US + p[3] if p else 0 for p in parts], dtype=np.int64)
+    back = np.r_[0, np.diff(of_day[ok]) < -12 * 3600 * _US].cumsum()
+    wall = np.zeros(len(parts), dtype=np.int64)
+    wall[ok] = day.astype("datetime64[us]").astype(np.int64) + back * 86400 * _US + of_day[ok]
+    utc, _ = wall_to_utc(wall, tz)
+    return utc, ok, f"times of day from {day} (the date on the header lines)"
 
 
 def _codes(texts: np.ndarray, labels: dict[str, str]) -> tuple[np.ndarray, dict[str, int]]:
