@@ -103,3 +103,14 @@ def test_detection_is_deterministic(tmp_path):
 def test_plain_contract_file_logs_nothing_new(tmp_path):
     rec = plain(tmp_path)
     assert rec.problems == []
+
+
+def test_na_counts_are_missing_like_empty_cells(tmp_path):
+    na = write(tmp_path, "na.csv", ["timestamp;counts"] + [f"{t};{'NA' if i == 2 else c}" for i, (t, c) in
+                                                           enumerate(zip(ISO_ROWS, COUNTS))])
+    empty = write(tmp_path, "empty.csv", ["timestamp;counts"] + [f"{t};{'' if i == 2 else c}" for i, (t, c) in
+                                                                 enumerate(zip(ISO_ROWS, COUNTS))])
+    a, b = read_actigraphy(na, TZ), read_actigraphy(empty, TZ)
+    np.testing.assert_array_equal(a.counts, b.counts)
+    assert np.isnan(a.counts[2]) and [p.message for p in a.problems if p.severity == "warning"] == [
+        p.message for p in b.problems if p.severity == "warning"]

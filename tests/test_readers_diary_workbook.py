@@ -96,3 +96,16 @@ def test_time_cells_on_the_spreadsheet_day_zero_are_times_of_day():
     assert _cell_text(dt.datetime(2026, 5, 15, 6, 45)) == "2026-05-15T06:45:00"
     assert _cell_text(dt.time(6, 30)) == "06:30:00" and _cell_text(dt.date(2026, 5, 14)) == "2026-05-14"
     assert _cell_text(15.0) == "15" and _cell_text(float("nan")) == ""
+
+
+def test_quoted_r_style_csv_with_row_names_and_na_reads_like_empty_cells(tmp_path):
+    path = tmp_path / "P01_diary.csv"  # as R's write.csv saves a data frame: quotes, row names, NA
+    path.write_text('"","night","bedtime","tried_to_sleep","sol_min","nwak","waso_min","final_awakening","out_of_bed","quality"\n'
+                    '"1","2026-05-14","22:10","22:30",15,2,20,"06:30","06:45",NA\n'
+                    '"2","2026-05-15",NA,"23:20",10,1,5,"07:00","07:10",4\n')
+    ref = tmp_path / "ref" / "P01_diary.csv"
+    ref.parent.mkdir()
+    ref.write_text(CSV.replace(",3\n", ",\n").replace("2026-05-15,23:05,", "2026-05-15,,"))
+    got, want = read_diary(path, TZ, participant="P01"), read_diary(ref, TZ, participant="P01")
+    assert got.entries == want.entries and got.entries[0].quality is None and got.entries[1].bedtime is None
+    assert not [p for p in got.problems if p.severity != "info"]

@@ -19,6 +19,7 @@ from sleepfuse.model.records import Problem
 from ._columns import match_columns, role_counter
 from ._csvtext import is_blank_row, line_phrase, missing_column_message, ragged_problems, read_table
 from ._csvtime import metadata_start, parse_stamps
+from ._dialect import MISSING
 from ._stamps import DateOrderConflict, DateOrderUnsettled
 
 ROLES = ("timestamp", "date", "time", "counts", "off_wrist", "marker")
@@ -123,6 +124,7 @@ def _from_start(path, meta, epoch_s, n, tz, date_order, header):
 def parse_counts(values: pd.Series, lines: np.ndarray, instants: np.ndarray, tz: str, decimal: str = "."):
     """Counts as float64; missing, non-numeric or negative values become NaN and are reported."""
     text = values.str.strip()
+    text = text.mask(text.str.casefold().isin(MISSING), "")  # NA, #N/A, ...: missing, as an empty cell
     if decimal == ",":
         text = text.str.replace(",", ".", regex=False)
     try:  # every cell a number: the fast path
@@ -155,6 +157,7 @@ _FALSE = {"0", "0.0", "false", "no", "n", "f"}
 def parse_flags(values: pd.Series, lines, instants, tz: str, key: str, *, blank_ok: bool):
     """A 0/1 column as bool; blank (unless ``blank_ok``) and other values read as False and reported."""
     text = values.str.strip().str.lower().str.replace(",", ".", regex=False)
+    text = text.mask(text.isin(MISSING), "")
     flags = text.isin(_TRUE).to_numpy()
     known = flags | text.isin(_FALSE).to_numpy()
     blank = (text == "").to_numpy()

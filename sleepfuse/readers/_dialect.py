@@ -16,6 +16,8 @@ import re
 from dataclasses import dataclass, field
 
 DELIMITERS = (",", ";", "\t", "|")
+# Cells that mean "no value" in the usual exports (R's NA, spreadsheets' #N/A...): read as empty (common practice).
+MISSING = frozenset({"na", "n/a", "#n/a", "nan", "null", "none", "-", "--", ".", "missing"})
 _NAMES = {",": "comma", ";": "semicolon", "\t": "tab", "|": "pipe"}
 _NUMBER_DOT = re.compile(r"^[+-]?\d+\.\d+$")
 _NUMBER_COMMA = re.compile(r"^[+-]?\d+,\d+$")

@@ -23,6 +23,7 @@ from sleepfuse.model.clock import GAP, REPEAT, localize, place_clock, place_wall
 from ._stamps import parse_clock
 from ._csvtext import missing_column_message
 from ._diary_table import TIME_KEYS, diary_table
+from ._dialect import MISSING
 
 DIARY_DEFAULT_COLUMNS = {k: k for k in DIARY_COLUMN_KEYS}
 NUMBER_KEYS = ("sol_min", "nwak", "waso_min", "quality")
@@ -101,7 +102,7 @@ def read_diary(
         entry = DiaryEntry(participant=who, night=night, line=line)
         for key, j, name in times:
             text = str(row[j]).strip()
-            if not text:
+            if not text or text.casefold() in MISSING:
                 continue
             value, note = _parse_time(text, night, tz)
             if value is None:
@@ -120,7 +121,7 @@ def read_diary(
                     problems.append(Problem("warning", f"line {line}, night {night}: {key} {text!r} {note}", time=value, night=night, participant=who))
         for key, j, name in numbers:
             text = str(row[j]).strip()
-            if not text:
+            if not text or text.casefold() in MISSING:
                 continue
             number = _NUMBERS.get(text, _UNSEEN)
             if number is _UNSEEN:
