@@ -71,3 +71,21 @@ def test_inspect_never_replaces_an_existing_study_toml_unless_forced(tmp_path, c
     assert "exists and is kept" in capsys.readouterr().out
     assert main(["inspect", str(root), "--force"]) == 0
     assert 'timezone = "Europe/Berlin"   # IANA zone' in (root / "study.toml").read_text()
+
+
+def test_the_proposal_keeps_every_setting_of_an_existing_study_toml(tmp_path):
+    import tomllib
+
+    from sleepfuse.model.config import build_config, load_config
+    from sleepfuse.study.inspect import propose_toml, survey
+
+    root = tmp_path / "study"
+    shutil.copytree(SAMPLE, root, ignore=shutil.ignore_patterns("generate.py"))
+    with open(root / "study.toml", "a", encoding="utf-8") as fh:
+        fh.write('\n[diary]\ncolumns = {tried_to_sleep = "settled at"}\nsheet = "Entries"\n'
+                 '[psg]\nlabels = {"Stage X" = "unscored"}\n')
+    before = load_config(root)
+    proposal = propose_toml(survey(root, before))
+    after = build_config(root, tomllib.loads(proposal))
+    assert {k: v for k, v in after.to_dict().items() if k != "source"} == {
+        k: v for k, v in before.to_dict().items() if k != "source"}

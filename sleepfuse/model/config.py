@@ -149,7 +149,7 @@ class StudyConfig:
         return d
 
 
-_SECTIONS = {
+SECTIONS = _SECTIONS = {
     "study": StudySection,
     "files": FilesSection,
     "psg": PsgSection,

@@ -12,7 +12,7 @@ import textwrap
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from sleepfuse.model.config import StudyConfig, load_config
+from sleepfuse.model.config import SECTIONS, StudyConfig, load_config
 from sleepfuse.model.errors import ReadError
 from sleepfuse.model.qc import QCLog
 from sleepfuse.model.records import ActigraphyRecord, Diary, Hypnogram, actigraphy_nights, hypnogram_night
@@ -123,40 +123,44 @@ def _nights(record, participant: str) -> list[tuple[str, dt.date]]:
     return [(e.participant, e.night) for e in record.entries]
 
 
-def _toml_string(text: str) -> str:
-    return '"' + text.replace("\\", "\\\\").replace('"', '\\"') + '"'
+def _toml_value(value) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, (int, float)):
+        return f"{value:g}" if isinstance(value, float) else str(value)
+    if isinstance(value, list):
+        return "[" + ", ".join(_toml_value(v) for v in value) + "]"
+    if isinstance(value, dict):
+        return "{" + ", ".join(f"{_toml_value(str(k))} = {_toml_value(v)}" for k, v in value.items()) + "}"
+    return '"' + str(value).replace("\\", "\\\\").replace('"', '\\"') + '"'
 
 
 def propose_toml(s: Survey) -> str:
-    """A study.toml for the study surveyed: the time zone to check, and only the settings the files need."""
+    """A study.toml for the study surveyed: the time zone to check, every setting of the current
+    configuration that differs from the defaults (so --force loses nothing), and a note where a
+    file needs a setting only a person can give (the date order)."""
     cfg = s.config
     lines = [
         "# study.toml proposed by 'sleepfuse inspect': check every line, then keep it.",
         "# sleepfuse is for research; it does not diagnose.",
         "[study]",
-        f"name = {_toml_string(cfg.study.name)}",
-        f"timezone = {_toml_string(cfg.timezone)}"
+        f"name = {_toml_value(cfg.study.name)}",
+        f"timezone = {_toml_value(cfg.timezone)}"
         + ("   # this machine's zone: set the zone of the devices' clocks" if cfg.study.timezone_from_machine
            else "   # IANA zone of the devices' clocks"),
     ]
-    if cfg.study.date_order:
-        lines.append(f"date_order = {_toml_string(cfg.study.date_order)}")
-    elif any(f.needs_date_order for f in s.files):
-        unsettled = ", ".join(f.file for f in s.files if f.needs_date_order)
-        lines += [f"# The dates of {unsettled} fit both day-first and month-first: say which, e.g.",
-                  '# date_order = "day-first"   # or "month-first"']
-    if cfg.psg.epoch_s != 30.0 or cfg.psg.labels:
-        lines += ["", "[psg]", f"epoch_s = {cfg.psg.epoch_s:g}"]
-        if cfg.psg.labels:
-            lines.append("labels = {" + ", ".join(f"{_toml_string(k)} = {_toml_string(v)}"
-                                                  for k, v in cfg.psg.labels.items()) + "}")
-    for section in ("actigraphy", "diary"):
-        explicit = getattr(cfg, section).columns
-        if explicit:
-            lines += ["", f"[{section}]", "columns = {" + ", ".join(f"{k} = {_toml_string(v)}"
-                                                                   for k, v in explicit.items()) + "}"]
-    if cfg.diary.sheet:
-        lines += ([] if cfg.diary.columns else ["", "[diary]"]) + [f"sheet = {_toml_string(cfg.diary.sheet)}"]
+    defaults = StudyConfig(root=cfg.root)
+    for section in SECTIONS:
+        now, default = getattr(cfg, section), getattr(defaults, section)
+        keys = [k for k in vars(now) if k not in ("name", "timezone", "timezone_from_machine")
+                and getattr(now, k) != getattr(default, k)]
+        if section != "study" and keys:
+            lines += ["", f"[{section}]"]
+        lines += [f"{k} = {_toml_value(getattr(now, k))}" for k in keys]
+        if section == "study" and not cfg.study.date_order and any(f.needs_date_order for f in s.files):
+            unsettled = ", ".join(f.file for f in s.files if f.needs_date_order)
+            lines += [f"# The dates of {unsettled} fit both day-first and month-first: say which, e.g.",
+                      '# date_order = "day-first"   # or "month-first"']
     return "\n".join(lines) + "\n"
 
 
