@@ -23,26 +23,35 @@ def _text(lines: list[str], path: Path, *, encoding: str = "utf-8", newline: str
 
 
 def actigraphy_styles() -> dict[str, callable]:
-    """style name -> writer(frame with 'timestamp' (datetime64) and 'counts' (int), path)."""
+    """style name -> writer(frame with 'timestamp' (datetime64), 'counts' (int) and maybe 'off_wrist', path)."""
+
+    def extra(df, sep, name="Non-wear"):  # the off-wrist flags, when the file has them, under a trade name
+        if "off_wrist" not in df:
+            return "", [""] * len(df)
+        return sep + name, [f"{sep}{int(v)}" for v in df.off_wrist]
 
     def semicolon_latin1(df, path):  # metadata lines, day-first dots, split columns, decimal comma, CRLF, Latin-1
-        rows = [f"{t:%d.%m.%Y};{t:%H:%M:%S};{c},0" for t, c in zip(df.timestamp, df.counts)]
+        head, flags = extra(df, ";")
+        rows = [f"{t:%d.%m.%Y};{t:%H:%M:%S};{c},0{f}" for t, c, f in zip(df.timestamp, df.counts, flags)]
         epoch = int((df.timestamp.iloc[1] - df.timestamp.iloc[0]).total_seconds())
         lines = ["Study export; invented data", "Remarque: données inventées", f"Epoch length: {epoch}",
-                 "", "Date;Time;Activity (counts)", *rows, f"Total;;{df.counts.sum()},0"]
+                 "", "Date;Time;Activity (counts)" + head, *rows, f"Total;;{df.counts.sum()},0"]
         _text(lines, path.with_suffix(".csv"), encoding="latin-1", newline="\r\n")
 
     def utf16_tab_month_first_12h(df, path):  # UTF-16 with BOM, tab, M/D/YYYY 12-hour clock
-        rows = [f"{t.month}/{t.day}/{t.year} {t:%I:%M:%S %p}\t{c}" for t, c in zip(df.timestamp, df.counts)]
-        _text(["Date/Time\tActivity", *rows], path.with_suffix(".txt"), encoding="utf-16")
+        head, flags = extra(df, "\t", "Off-wrist")
+        rows = [f"{t.month}/{t.day}/{t.year} {t:%I:%M:%S %p}\t{c}{f}" for t, c, f in zip(df.timestamp, df.counts, flags)]
+        _text(["Date/Time\tActivity" + head, *rows], path.with_suffix(".txt"), encoding="utf-16")
 
     def pipe_cr_two_digit_year(df, path):  # pipe, old-Mac CR line ends, D-M-YY
-        rows = [f"{t:%d-%m-%y %H:%M:%S}|{c}" for t, c in zip(df.timestamp, df.counts)]
-        _text(["DATETIME|COUNTS", *rows], path.with_suffix(".csv"), newline="\r")
+        head, flags = extra(df, "|", "NONWEAR")
+        rows = [f"{t:%d-%m-%y %H:%M:%S}|{c}{f}" for t, c, f in zip(df.timestamp, df.counts, flags)]
+        _text(["DATETIME|COUNTS" + head, *rows], path.with_suffix(".csv"), newline="\r")
 
     def bom_fractional_seconds(df, path):  # UTF-8 BOM, ISO with a space and fractional seconds, synonyms
-        rows = [f"{t:%Y-%m-%d %H:%M:%S}.000,{c}" for t, c in zip(df.timestamp, df.counts)]
-        _text(["Time stamp,Activity counts", *rows], path.with_suffix(".csv"), encoding="utf-8-sig")
+        head, flags = extra(df, ",", "Off wrist")
+        rows = [f"{t:%Y-%m-%d %H:%M:%S}.000,{c}{f}" for t, c, f in zip(df.timestamp, df.counts, flags)]
+        _text(["Time stamp,Activity counts" + head, *rows], path.with_suffix(".csv"), encoding="utf-8-sig")
 
     return {f.__name__: f for f in (semicolon_latin1, utf16_tab_month_first_12h, pipe_cr_two_digit_year,
                                     bom_fractional_seconds)}
@@ -67,22 +76,47 @@ def diary_styles() -> dict[str, callable]:
                                  "sol_min": "SOL", "nwak": "Awakenings", "waso_min": "WASO",
                                  "final_awakening": "Final awakening", "out_of_bed": "Out of bed",
                                  "quality": "Sleep quality"})
-        out["Date"] = pd.to_datetime(out["Date"]).dt.strftime("%d/%m/%Y")
+        out["Date"] = [_cell(v, "%Y-%m-%d", lambda t: t.strftime("%d/%m/%Y")) for v in out["Date"]]
         for c in ("Bed time", "Lights off", "Final awakening", "Out of bed"):
-            out[c] = pd.to_datetime(out[c], format="%H:%M").dt.strftime("%I:%M %p")
+            out[c] = [_twelve_hour(v) for v in out[c]]
         path.with_suffix(".csv").write_text(out.to_csv(sep=";", index=False, lineterminator="\r\n"), encoding="utf-8")
 
     return {f.__name__: f for f in (workbook_xlsx, workbook_ods, semicolon_day_first_12h)}
 
 
 def _typed(df: pd.DataFrame) -> pd.DataFrame:
-    out = df.copy()
-    out["night"] = pd.to_datetime(out["night"]).dt.date
+    """The diary's text as a spreadsheet holds it: date, time, date-time and number cells; the rest text."""
+    out = df.copy().astype(object)
+    for i, v in out["night"].items():
+        out.at[i, "night"] = _cell(v, "%Y-%m-%d", lambda t: t.date())
     for c in ("bedtime", "tried_to_sleep", "final_awakening", "out_of_bed"):
-        out[c] = pd.to_datetime(out[c], format="%H:%M").dt.time
+        for i, v in out[c].items():
+            out.at[i, c] = _cell(v, "%H:%M", lambda t: t.time(), _cell(v, "%Y-%m-%dT%H:%M", lambda t: t.to_pydatetime()))
     for c in ("sol_min", "nwak", "waso_min", "quality"):
-        out[c] = pd.to_numeric(out[c])
+        out[c] = [pd.to_numeric(v, errors="coerce") if _is_number(v) else v for v in out[c]]
     return out
+
+
+def _cell(text, fmt, convert, otherwise=None):
+    try:
+        return convert(pd.to_datetime(text, format=fmt))
+    except (ValueError, TypeError):
+        return otherwise if otherwise is not None else text
+
+
+def _is_number(text) -> bool:
+    try:
+        float(text)
+        return True
+    except (TypeError, ValueError):
+        return False
+
+
+def _twelve_hour(text: str) -> str:
+    try:
+        return pd.to_datetime(text, format="%H:%M").strftime("%I:%M %p")
+    except (ValueError, TypeError):
+        return text
 
 
 def clean_study(root: Path, participants: tuple[str, ...]) -> Path:

@@ -55,3 +55,15 @@ def test_psg_saved_as_text_hypnograms_gives_the_same_psg_nights(clean, tmp_path)
             - pd.to_datetime(ref.pop("window_end"), format="ISO8601", utc=True))
     assert (ends.abs() < pd.Timedelta(microseconds=1)).all()
     pd.testing.assert_frame_equal(psg, ref)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("actigraphy_style", list(actigraphy_styles()))
+@pytest.mark.parametrize("diary_style", list(diary_styles()))
+def test_the_whole_demo_study_resaved_every_way_gives_the_same_night_table(tmp_path, actigraphy_style, diary_style):
+    clean = clean_study(tmp_path / "clean", tuple(f"P0{i}" for i in range(1, 9)))
+    shutil.copy(SAMPLE / "diary" / "diary.csv", clean / "diary" / "diary.csv")
+    expected = run_study(clean, keep_detail=False)
+    got = run_study(resave(clean, tmp_path / "messy", actigraphy_style, diary_style), keep_detail=False)
+    pd.testing.assert_frame_equal(got.nights, expected.nights)
+    assert problems(got) == problems(expected)
