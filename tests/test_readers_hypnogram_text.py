@@ -67,6 +67,28 @@ def test_times_of_day_with_the_date_on_a_header_line_roll_over_midnight(tmp_path
     assert h.start.isoformat() == "2026-05-14T23:59:00+02:00" and h.end.isoformat() == "2026-05-15T00:01:00+02:00"
 
 
+def test_an_annotation_list_with_onsets_durations_and_events_reads_like_edf_plus(tmp_path):
+    # onset (ISO), duration (s), description: stages spanning several epochs, events ignored, lights markers
+    annotations = [(0, None, "Lights off"), (0, 60, "Sleep stage W"), (60, 30, "Sleep stage N1"),
+                   (75, 10, "Arousal"), (90, 90, "Sleep stage N2"), (180, 30, "Sleep stage R"), (210, None, "Lights on")]
+    edf = read_hypnogram(write_edf_plus(tmp_path / "P01_a.edf", start=START, annotations=annotations,
+                                        record_duration_s=30), TZ)
+    lines = ["onset,duration,description"] + [
+        f"{(START + dt.timedelta(seconds=o)).isoformat()},{'' if d is None else d},{t}" for o, d, t in annotations]
+    path = tmp_path / "P01_a.csv"
+    path.write_text("\n".join(lines) + "\n")
+    h = read_text_hypnogram(path, TZ)
+    assert h.stages.tolist() == edf.stages.tolist() == [0, 0, 1, 2, 2, 2, 4]
+    assert (h.start, h.lights_off, h.lights_on) == (edf.start, edf.lights_off, edf.lights_on)
+
+
+def test_onsets_in_seconds_from_a_start_on_a_header_line(tmp_path):
+    path = tmp_path / "P01_a.txt"
+    path.write_text("Start: 2026-05-14 23:00:00\nOnset\tDuration\tStage\n0\t60\tW\n60\t30\tN1\n90\t30\tN2\n")
+    h = read_text_hypnogram(path, TZ)
+    assert h.stages.tolist() == [0, 0, 1, 2] and h.start.isoformat() == "2026-05-14T23:00:00+02:00"
+
+
 def test_lights_in_an_event_column(tmp_path):
     t = times(4)
     rows = [f"{t[0]:%Y-%m-%d %H:%M:%S};Lights off;", f"{t[0]:%Y-%m-%d %H:%M:%S};;W", f"{t[1]:%Y-%m-%d %H:%M:%S};;N1",

@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 SYNONYMS: dict[str, tuple[str, ...]] = {
     # actigraphy
     "timestamp": ("timestamp", "time stamp", "datetime", "date time", "date/time", "date_time", "date and time",
-                  "epoch start", "epoch start time"),
+                  "epoch start", "epoch start time", "start time", "onset"),
     "date": ("date", "day", "calendar date"),
     "time": ("time", "clock", "clock time", "time of day"),
     "counts": ("counts", "count", "activity", "activity counts", "activity count", "activity score",
@@ -27,8 +27,10 @@ SYNONYMS: dict[str, tuple[str, ...]] = {
                   "not worn", "off wrist flag", "non-wear flag", "off-wrist status", "non-wear status"),
     "marker": ("marker", "markers", "event", "events", "event marker", "marker flag", "button"),
     # text hypnograms
-    "stage": ("stage", "stages", "sleep stage", "sleep stages", "hypnogram", "score", "scored stage", "label"),
+    "stage": ("stage", "stages", "sleep stage", "sleep stages", "hypnogram", "score", "scored stage", "label",
+              "annotation", "description"),
     "epoch": ("epoch", "epoch number", "epoch no", "epoch nr", "epoch #", "#"),
+    "duration": ("duration", "duration s", "dur", "length s"),
     # diaries
     "participant": ("participant", "participant id", "participant_id", "subject", "subject id", "id", "pid"),
     "night": ("night", "night date", "date of night", "night of", "evening", "date", "diary date"),

@@ -1,13 +1,17 @@
-"""Hypnograms saved as text (CSV, TSV or TXT in ``psg/``): one row per scored epoch.
+"""Hypnograms saved as text (CSV, TSV or TXT in ``psg/``): one row per scored epoch, or an annotation list.
 
-Each row gives an epoch's stage and either its start (a date-time, or a date
-and a time column, in any form ``_stamps`` reads) or its epoch number, with
-the recording's start on a line above the header (``Start: 2026-10-27
-23:04:30``). Labels go through the EDF+ reader's map (``stage_labels``:
-W/Wake/0, N1/1, N2/2, N3/3/4, R/REM/5, ?/unscored, plus study.toml
-``[psg] labels``). Rows whose label is a lights marker ("Lights off", "Lights
-on") set the sleep opportunity; without them scoring uses first to last scored
-epoch and says so in the QC log, as for EDF+.
+Each row gives a stage and its start: a date-time (or a date and a time
+column, in any form ``_stamps`` reads), times of day with the date on a line
+above the header, an epoch number or an onset in seconds with the start on a
+line above the header (``Start: 2026-10-27 23:04:30``). An optional duration
+column makes it an annotation list (onset, duration, description). The rows
+are then read exactly as the EDF+ reader reads its annotations
+(``_edfstages``: the same label map W/Wake/0, N1/1, N2/2, N3/3/4, R/REM/5,
+?/unscored plus study.toml ``[psg] labels``, the same epoch grid, unknown
+labels counted as unscored and reported, events ignored). Rows whose label
+is a lights marker ("Lights off", "Lights on"), in the stage or an event
+column, set the sleep opportunity; without them scoring uses first to last
+scored epoch and says so in the QC log, as for EDF+.
 """
 
 from __future__ import annotations
@@ -21,15 +25,15 @@ import pandas as pd
 from sleepfuse.model.clock import wall_to_utc
 from sleepfuse.model.errors import ConfigError, ReadError
 from sleepfuse.model.records import Hypnogram, Problem
-from sleepfuse.model.stages import STAGE_DTYPE, Stage
 from ._columns import match_columns, role_counter
-from ._csvtext import is_blank_row, line_phrase, missing_column_message, read_raw, read_table
+from ._csvtext import is_blank_row, missing_column_message, read_raw, read_table
 from ._csvtime import metadata_start, parse_stamps
 from ._stamps import DateOrderConflict, DateOrderUnsettled, parse_clock, parse_wall
-from .stage_labels import DEFAULT_SIGNAL_CODES, TARGET_CODES, lights_marker, merged_labels, normalise_label
+from ._edfstages import _classify, _stage_grid
+from ._edftimes import _lights
+from .stage_labels import DEFAULT_SIGNAL_CODES, lights_marker, merged_labels
 
-ROLES = ("timestamp", "date", "time", "epoch", "stage", "marker")  # marker: an event column with lights rows
-MAX_EPOCHS = 14 * 2880  # two weeks of 30-s epochs: longer is a damaged file
+ROLES = ("timestamp", "date", "time", "epoch", "duration", "stage", "marker")  # marker: an event column
 _US = 1_000_000
 
 
@@ -37,8 +41,8 @@ def read_text_hypnogram(path, tz: str, *, epoch_s: float = 30.0, labels: dict[st
                         date_order: str = "") -> Hypnogram:
     """Read a text hypnogram; times in the IANA zone ``tz``. Raises ReadError with the reason."""
     path = Path(path)
-    try:
-        table_labels = merged_labels(labels)
+    try:  # the EDF+ label map, with R&K's numeric codes as EDF hypnogram signals use them (5 = R)
+        table_labels = {**{str(k): v for k, v in DEFAULT_SIGNAL_CODES.items()}, **merged_labels(labels)}
     except ValueError as exc:
         raise ConfigError("psg.labels", labels, str(exc)) from None
     digest = hashlib.sha256(read_raw(path)).hexdigest()
@@ -65,9 +69,19 @@ def read_text_hypnogram(path, tz: str, *, epoch_s: float = 30.0, labels: dict[st
         elif col["timestamp"] is not None or (col["date"] is not None and col["time"] is not None):
             stamps = (cells[col["timestamp"]] if col["timestamp"] is not None
                       else cells[col["date"]].str.strip() + " " + cells[col["time"]].str.strip()).str.strip()
-            instants, ok, stamp_problems, fmt = parse_stamps(stamps, lines, tz, date_order)
-            problems += stamp_problems
-            detected["time stamps"] = fmt
+            seconds = pd.to_numeric(stamps.str.replace(",", ".", regex=False), errors="coerce").to_numpy()
+            if np.isfinite(seconds).mean() > 0.9:  # onsets in seconds from a start on the header lines
+                start = metadata_start(table.dialect.metadata, tz, date_order)
+                if start is None:
+                    raise ReadError(path, "onsets in seconds but no start time: give 'Start: <date time>' on a "
+                                          "line above the header")
+                ok = np.isfinite(seconds)
+                instants = start[0] + np.round(np.nan_to_num(seconds) * _US).astype(np.int64)
+                detected["time stamps"] = f"seconds from a start on the header lines ({start[1]})"
+            else:
+                instants, ok, stamp_problems, fmt = parse_stamps(stamps, lines, tz, date_order)
+                problems += stamp_problems
+                detected["time stamps"] = fmt
         elif col["epoch"] is not None:
             start = metadata_start(table.dialect.metadata, tz, date_order)
             if start is None:
@@ -88,50 +102,35 @@ def read_text_hypnogram(path, tz: str, *, epoch_s: float = 30.0, labels: dict[st
         raise ReadError(path, str(exc)) from None
     if not ok.any():
         raise ReadError(path, "no epoch has a readable time or number")
+    # From here on, the rows are an annotation list, read as the EDF+ reader reads one (same label
+    # map, same epoch grid rules, same lights and unknown-label handling).
     texts = cells[col["stage"]].str.strip().to_numpy()[ok]
-    instants, lines = instants[ok], lines[ok]
-    marks = np.array([lights_marker(t) or "" for t in texts])
-    epoch = marks == ""
-    if col["marker"] is not None:  # lights in an event column: on a row of its own, or beside a stage
-        events = np.array([lights_marker(t) or "" for t in cells[col["marker"]].str.strip().to_numpy()[ok]])
-        epoch &= ~((texts == "") & (events != ""))
-        marks = np.where(marks == "", events, marks)
-    lights = {k: instants[marks == k] for k in ("off", "on")}
-    t0 = int(instants[epoch].min()) if epoch.any() else None
-    if t0 is None:
-        raise ReadError(path, "no stage rows (only lights rows)")
-    rel = instants[epoch] - t0
-    slots = (rel + step // 2) // step
-    if int(slots.max()) + 1 > MAX_EPOCHS:
-        raise ReadError(path, f"the epochs span more than {MAX_EPOCHS} epochs; check the time stamps")
-    stages = np.full(int(slots.max()) + 1, Stage.UNSCORED, dtype=STAGE_DTYPE)
-    codes, unknown = _codes(texts[epoch], table_labels)
-    order = np.argsort(slots, kind="stable")
-    first = np.r_[True, np.diff(slots[order]) != 0]
-    stages[slots[order][first]] = codes[order][first]
-    dup = lines[epoch][order][~first]
-    if dup.size:
-        problems.append(Problem("warning", f"{dup.size} row(s) for an epoch already given; the first kept "
-                                           f"({line_phrase(dup)})"))
-    off_grid = np.flatnonzero(rel - slots * step)
-    if off_grid.size:
-        problems.append(Problem("warning", f"{off_grid.size} row(s) not on the {epoch_s:g}-s epoch grid moved to the "
-                                           f"nearest epoch ({line_phrase(lines[epoch][off_grid])})"))
-    if unknown:
-        listed = ", ".join(f"{k!r} ({v} × {epoch_s:g} s)" for k, v in unknown.items())
-        problems.append(Problem("warning", f"unknown stage labels counted as unscored: {listed}; map them in "
-                                           "study.toml [psg] labels to W, N1, N2, N3, R or unscored"))
-    start = pd.Timestamp(t0, unit="us", tz="UTC").tz_convert(tz)
-    lights_off = _local(lights["off"].min(), tz) if lights["off"].size else None
-    lights_on = _local(lights["on"].max(), tz) if lights["on"].size else None
-    if lights_off is not None and lights_on is not None and lights_on <= lights_off:
-        problems.append(Problem("warning", "lights on is not after lights off; lights on is ignored", lights_on))
-        lights_on = None
+    instants = instants[ok]
+    reference = int(instants.min())
+    onsets = ((instants - reference) / _US).tolist()
+    if col["duration"] is not None:
+        seconds = pd.to_numeric(cells[col["duration"]].str.strip().str.replace(",", ".", regex=False),
+                                errors="coerce").to_numpy()[ok]
+        durations = [float(d) if np.isfinite(d) and d > 0 else None for d in seconds]
+        detected["durations"] = f"column {table.header[col['duration']]!r} (s)"
+    else:
+        durations = [float(epoch_s)] * len(texts)  # one row per epoch
+    rows = [(o, d, t) for o, d, t in zip(onsets, durations, texts) if t]
+    if col["marker"] is not None:  # lights (or other events) in a column of their own
+        events = cells[col["marker"]].str.strip().to_numpy()[ok]
+        rows += [(o, None, e) for o, e in zip(onsets, events) if e and lights_marker(e)]
+    header_start = _local(reference, tz)
+    stage_rows, lights = _classify(*(list(c) for c in zip(*rows)), float(epoch_s), table_labels) if rows else ([], [])
+    if not stage_rows:
+        raise ReadError(path, f"no sleep stages found in column {table.header[col['stage']]!r}; map the labels in "
+                              "study.toml ([psg] labels)")
+    t0, stages, unknown = _stage_grid(path, stage_rows, float(epoch_s), header_start, problems)
+    lights_off, lights_on = _lights(lights, header_start, problems)
+    start = header_start + pd.Timedelta(seconds=t0)
     detected["epochs"] = f"{stages.size} × {epoch_s:g} s"
-    detected["lights rows"] = ("yes" if lights["off"].size or lights["on"].size
-                               else "none: first to last scored epoch")
+    detected["lights rows"] = "yes" if lights else "none: first to last scored epoch"
     problems.insert(0, Problem("info", "read as: " + "; ".join(f"{k}: {v}" for k, v in detected.items())))
-    return Hypnogram(path, start, start, float(epoch_s), stages, lights_off, lights_on, unknown, problems,
+    return Hypnogram(path, header_start, start, float(epoch_s), stages, lights_off, lights_on, unknown, problems,
                      sha256=digest, detected=detected)
 
 
@@ -168,26 +167,6 @@ def _clocks_on_start_date(path, clocks: pd.Series, meta: dict[str, str], tz: str
     wall[ok] = day.astype("datetime64[us]").astype(np.int64) + back * 86400 * _US + of_day[ok]
     utc, _ = wall_to_utc(wall, tz)
     return utc, ok, f"times of day from {day} (the date on the header lines)"
-
-
-def _codes(texts: np.ndarray, labels: dict[str, str]) -> tuple[np.ndarray, dict[str, int]]:
-    """Stage code of every label; unknown labels become UNSCORED and are counted."""
-    codes = np.empty(texts.size, dtype=STAGE_DTYPE)
-    unknown: dict[str, int] = {}
-    known: dict[str, int] = {}
-    for i, text in enumerate(texts):
-        code = known.get(text)
-        if code is None:
-            target = labels.get(normalise_label(text)) if text else "unscored"
-            if target is None and text.strip().isdigit() and int(text) in DEFAULT_SIGNAL_CODES:
-                target = DEFAULT_SIGNAL_CODES[int(text)]  # numeric coding as in EDF hypnogram signals (5 = R)
-            code = known[text] = TARGET_CODES[target] if target else Stage.UNSCORED
-            if target is None:
-                unknown[text] = 0
-        if text in unknown:
-            unknown[text] += 1
-        codes[i] = code
-    return codes, unknown
 
 
 def _local(us, tz: str) -> pd.Timestamp:
