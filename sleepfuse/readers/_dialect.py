@@ -133,7 +133,7 @@ def find_header(rows: list[list[str]], knows) -> int:
     limit = min(len(rows), 200)
     best, best_n = None, 0
     for i in range(limit):
-        if best is not None and i > best + 20:  # a header is not followed by 20 rows of more names
+        if best is not None and i > best + (3 if best_n >= 2 else 20):  # names a few rows below a header
             break
         n = knows(rows[i]) if rows[i] and any(c.strip() for c in rows[i]) else 0
         if n > best_n:
