@@ -42,3 +42,21 @@ def run_async(test):
         return asyncio.run(test(*args, **kwargs))
 
     return wrapper
+
+
+async def burst(pilot, *keys: str) -> None:
+    """Send every key at once, with no pause between them (as typed-ahead keys arrive over SSH), then settle.
+
+    ``pilot.press`` waits for the app to idle after each key, which hides ordering
+    bugs; this puts all the key events in the app's queue before any is handled.
+    """
+    from textual import events
+    from textual.keys import _character_to_key
+
+    app = pilot.app
+    for key in keys:  # single characters ('[', '?') or key names ('enter', 'down')
+        name = _character_to_key(key) if len(key) == 1 and not key.isalnum() else key
+        event = events.Key(name, key if len(key) == 1 else None)
+        event.set_sender(app)
+        app._driver.send_message(event)
+    await settle(pilot)

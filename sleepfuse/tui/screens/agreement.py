@@ -54,7 +54,7 @@ class AgreementScreen(Screen):
     BINDINGS = [
         Binding("left,h", "select(-1)", "Prev point", key_display="←", tooltip="select the previous point (by mean)"),
         Binding("right,l", "select(1)", "Next point", key_display="→", tooltip="select the next point (by mean)"),
-        Binding("enter", "open_night", "Night", priority=True, tooltip="open the night of the selected point"),
+        Binding("enter", "open_night", "Night", tooltip="open the night of the selected point"),
         Binding("p", "next_pair", "Pair", tooltip="next instrument pair"),
         Binding("v", "next_parameter(1)", "Parameter", tooltip="next sleep parameter"),
         Binding("V", "next_parameter(-1)", "Prev parameter", show=False),

@@ -17,6 +17,7 @@ from textual.widgets import DataTable, Footer, Static
 
 from sleepfuse.model.definitions import PARAMETERS
 from ..widgets.appbar import AppBar
+from ..widgets.table import CursorTable
 from sleepfuse.model.numbers import fmt
 from .choice import choice_line
 from . import tcss
@@ -27,7 +28,7 @@ class DisagreementScreen(Screen):
 
     CSS_PATH = tcss("disagreements")
     BINDINGS = [
-        Binding("enter", "open_night", "Night", priority=True, tooltip="open the night view of the highlighted row"),
+        Binding("enter", "open_night", "Night", tooltip="open the night view of the highlighted row"),
         Binding("p", "next_pair", "Pair", tooltip="next instrument pair (actigraphy−PSG, diary−PSG, diary−actigraphy)"),
         Binding("v", "next_parameter(1)", "Parameter", tooltip="next sleep parameter"),
         Binding("V", "next_parameter(-1)", "Prev parameter", show=False),
@@ -43,7 +44,7 @@ class DisagreementScreen(Screen):
     def compose(self) -> ComposeResult:
         yield AppBar(self.app.study_name, "disagreements")
         yield Static("", id="choice")
-        yield DataTable(id="ranked", cursor_type="row", zebra_stripes=True)
+        yield CursorTable(id="ranked", cursor_type="row", zebra_stripes=True)
         yield Static("×LoA = (diff − bias) / half the LoA width; * beyond the limits",
                      id="ranked-note")
         yield Footer()
@@ -98,14 +99,15 @@ class DisagreementScreen(Screen):
         self.fill()
 
     def on_data_table_row_selected(self, event: DataTable.RowSelected) -> None:
+        """A mouse click on a row (Enter is the screen's own binding)."""
         event.stop()
-        self.action_open_night()
+        self.action_open_night(event.cursor_row)
 
-    def action_open_night(self) -> None:
-        table = self.query_one("#ranked", DataTable)
+    def action_open_night(self, row: int | None = None) -> None:
         if self.ranked is None or self.ranked.empty:
             return
-        r = self.ranked.iloc[table.cursor_row]
+        row = self.query_one("#ranked", DataTable).cursor_row if row is None else row
+        r = self.ranked.iloc[row]
         self.app.open_night(r["participant"], r["night"])
 
     def action_back(self) -> None:

@@ -160,4 +160,8 @@ class NightScreen(Screen):
         review_night(self, self.participant, self.night, "include", on_saved=self.show_night)
 
     def action_back(self) -> None:
+        """Back to the screen below; the overview puts its cursor on the night shown last (after any [ ] { })."""
         self.app.pop_screen()
+        move_to = getattr(self.app.screen, "move_to", None)
+        if move_to is not None:  # at once, so a key typed behind q moves on from this night
+            move_to(self.participant, self.night)

@@ -23,6 +23,7 @@ from sleepfuse.model.definitions import SOURCE_NAMES
 from sleepfuse.run.session import SOURCES, StudyLoader, Workspace, night_cells
 from ..messages import ParticipantsScored, StudyFailed, StudyLoaded, StudyPlanned
 from ..widgets.appbar import AppBar
+from ..widgets.table import CursorTable
 from . import tcss
 
 GLYPH_STYLE = {"P": "green", "A": "cyan", "D": "magenta", "×": "bold red", "!": "bold yellow", "·": "dim"}
@@ -54,7 +55,7 @@ class OverviewScreen(Screen):
 
     CSS_PATH = tcss("overview")
     BINDINGS = [
-        Binding("enter", "open_night", "Night", priority=True, tooltip="open the night view of the highlighted participant and night"),
+        Binding("enter", "open_night", "Night", tooltip="open the night view of the highlighted participant and night"),
         Binding("d", "app.disagreements", "Disagree", tooltip="nights ranked by how far two instruments disagree"),
         Binding("a", "app.agreement", "Agree", tooltip="Bland–Altman agreement of a pair of instruments on one parameter"),
         Binding("c", "app.clusters", "Clust",
@@ -80,7 +81,7 @@ class OverviewScreen(Screen):
     def compose(self) -> ComposeResult:
         yield AppBar(self.app.study_name, "overview")
         with Horizontal(id="body"):
-            yield DataTable(id="grid", cursor_type="cell", fixed_columns=1, cell_padding=0, header_height=2)
+            yield CursorTable(id="grid", cursor_type="cell", fixed_columns=1, cell_padding=0, header_height=2)
             with VerticalScroll(id="side-scroll"):
                 yield Static("", id="side")
         with Horizontal(id="loading"):
@@ -198,20 +199,26 @@ class OverviewScreen(Screen):
                               column=max(1, min(where.column, len(self.nights))), animate=False)
         self._update_side()
 
-    def current(self) -> tuple[str | None, str | None]:
-        """The participant and night under the cursor."""
-        table = self.query_one("#grid", DataTable)
-        c = table.cursor_coordinate
+    def current(self, coordinate=None) -> tuple[str | None, str | None]:
+        """The participant and night under the cursor (or at ``coordinate``)."""
+        c = coordinate or self.query_one("#grid", DataTable).cursor_coordinate
         pid = self.row_pids[c.row] if 0 <= c.row < len(self.row_pids) else None
         night = self.nights[c.column - 1] if 1 <= c.column <= len(self.nights) else None
         return pid, night
+
+    def move_to(self, participant: str, night: str) -> None:
+        """Put the cursor on a participant-night (the night view calls this on its way back)."""
+        if participant in self.row_pids and night in self.nights:
+            self.query_one("#grid", DataTable).move_cursor(
+                row=self.row_pids.index(participant), column=self.nights.index(night) + 1, animate=False)
 
     def on_data_table_cell_highlighted(self, event: DataTable.CellHighlighted) -> None:
         self._update_side()
 
     def on_data_table_cell_selected(self, event: DataTable.CellSelected) -> None:
+        """A mouse click on a cell (Enter is the screen's own binding)."""
         event.stop()
-        self.action_open_night()
+        self.action_open_night(event.coordinate)
 
     def _update_side(self) -> None:
         ws = self.app.workspace
@@ -227,8 +234,8 @@ class OverviewScreen(Screen):
         table = self.query_one("#grid", DataTable)
         getattr(table, f"action_cursor_{direction}")()
 
-    def action_open_night(self) -> None:
-        pid, night = self.current()
+    def action_open_night(self, coordinate=None) -> None:
+        pid, night = self.current(coordinate)
         if self.app.workspace is None:
             self.notify("the study is still loading", severity="warning")
             return
