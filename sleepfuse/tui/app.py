@@ -13,6 +13,7 @@ from textual.binding import Binding
 
 from sleepfuse.run.participant import StudyResult
 from sleepfuse.run.session import PairChoice, Workspace
+from .legible import use_legible_monochrome
 from .screens.agreement import AgreementScreen
 from .screens.disagreements import DisagreementScreen
 from .screens.explore import ExploreScreen
@@ -33,6 +34,7 @@ class SleepfuseApp(App):
     def __init__(self, study: Path, *, workspace: Workspace | None = None, study_name: str = "",
                  export_dir: Path | None = None) -> None:
         super().__init__()
+        self._filters = use_legible_monochrome(self._filters)  # NO_COLOR: every mark keeps its contrast
         self.study = Path(study)
         self.workspace = workspace
         self.study_name = study_name or (workspace.name if workspace else self.study.name)

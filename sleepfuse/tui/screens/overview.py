@@ -26,7 +26,7 @@ from ..widgets.appbar import AppBar
 from ..widgets.table import CursorTable
 from . import tcss
 
-GLYPH_STYLE = {"P": "green", "A": "cyan", "D": "magenta", "×": "bold red", "!": "bold yellow", "·": "dim"}
+GLYPH_STYLE = {"P": "bold green", "A": "bold cyan", "D": "bold magenta", "×": "bold red", "!": "bold yellow", "·": "dim"}
 LEGEND = "P A D = PSG actigraphy diary   · missing   × excluded   ! QC problem"
 EMPTY = "    "
 

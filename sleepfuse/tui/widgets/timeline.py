@@ -225,7 +225,7 @@ def _diary_row(pic: NightPicture, width: int) -> Text:
         if 0 <= c < width:
             chars[c] = mark
             taken.add(c)
-    line.append("".join(chars), style="magenta")
+    line.append("".join(chars), style="bold magenta")
     return line
 
 
