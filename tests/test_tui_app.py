@@ -270,3 +270,33 @@ def test_cli_without_terminal_says_so_and_exits_2(tmp_path):
     assert r.returncode == 2
     assert "needs an interactive terminal" in r.stderr and "sleepfuse batch" in r.stderr
     assert r.stdout.strip() == "False"  # the driver was never started, textual never imported
+
+
+def test_cli_with_stderr_redirected_says_so_on_stdout_and_exits_2(tmp_path):
+    """Issue 15.10: 'sleepfuse open STUDY 2>log' would draw into the log; it says so on the terminal instead."""
+    import os
+    import pty
+    import subprocess
+    import sys
+
+    main, child = pty.openpty()
+    log = tmp_path / "log"
+    with open(log, "w") as err:
+        r = subprocess.run([sys.executable, "-m", "sleepfuse", "open", str(SAMPLE)], stdin=child, stdout=child,
+                           stderr=err, timeout=60)
+    os.close(child)
+    shown = b""
+    while True:
+        try:
+            chunk = os.read(main, 4096)
+        except OSError:
+            break
+        if not chunk:
+            break
+        shown += chunk
+        if b"2>log" in shown.replace(b"\r\n", b""):
+            break
+    os.close(main)
+    assert r.returncode == 2
+    assert b"standard error" in shown and b"sleepfuse batch" in shown
+    assert "\x1b[" not in log.read_text()  # nothing was drawn into the log

@@ -11,6 +11,11 @@ from sleepfuse.cli.args import EXIT_USAGE, study_dir
 NO_TTY_MESSAGE = (
     "sleepfuse open needs an interactive terminal; for headless use run: sleepfuse batch STUDY --out DIR"
 )
+STDERR_REDIRECTED_MESSAGE = (
+    "sleepfuse open draws the app on standard error, which is redirected here (for example '2>log'), "
+    "so the screen would stay blank. Run it without redirecting standard error; for a log of a run, "
+    "use 'sleepfuse batch STUDY --out DIR 2>log'."
+)
 
 
 def add_open_parser(subparsers) -> argparse.ArgumentParser:
@@ -30,9 +35,17 @@ def add_open_parser(subparsers) -> argparse.ArgumentParser:
 
 
 def run_open(args: argparse.Namespace) -> int:
-    """Start the app; without a terminal on stdin and stdout, say so and exit 2 (never start the driver)."""
+    """Start the app; without a terminal to read keys from and draw on, say so and exit 2 (never start the driver).
+
+    The app reads stdin and draws on stderr (Textual's driver writes to the
+    process's standard error), so both must be a terminal; stdout too, as
+    people expect of an interactive program.
+    """
     if not (sys.stdin.isatty() and sys.stdout.isatty()):
         print(NO_TTY_MESSAGE, file=sys.stderr)
+        return EXIT_USAGE
+    if not sys.__stderr__.isatty():
+        print(STDERR_REDIRECTED_MESSAGE, file=sys.stdout)  # the one stream still on the screen
         return EXIT_USAGE
     from sleepfuse.model.config import load_config
     from sleepfuse.model.errors import ConfigError

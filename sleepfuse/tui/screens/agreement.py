@@ -15,35 +15,49 @@ from textual.binding import Binding
 from textual.screen import Screen
 from textual.widgets import Footer, Static
 
+from sleepfuse.fusion.agreement import PROPORTIONAL_P
+from sleepfuse.model.definitions import PARAMETERS, SOURCE_NAMES
+from sleepfuse.model.numbers import format_number, format_p
 from ..widgets.appbar import AppBar
 from ..widgets.scatter import BlandAltmanPlot
 from .choice import choice_line
 from . import tcss
 
 
-def _f(v, digits: int = 1) -> str:
+def _n(v, digits: int = 1) -> str:
     try:
-        v = float(v)
+        return format_number(float(v), digits)
     except (TypeError, ValueError):
-        return "–"
-    return f"{v:.{digits}f}" if math.isfinite(v) else "–"
+        return format_number(math.nan)
+
+
+def proportional_line(row: dict) -> tuple[float, float] | None:
+    """(intercept, slope) of the difference on the mean where proportional bias is flagged (p < PROPORTIONAL_P)."""
+    try:
+        p, a, b = float(row["prop_p"]), float(row["prop_intercept"]), float(row["prop_slope"])
+    except (KeyError, TypeError, ValueError):
+        return None
+    if math.isfinite(p) and p < PROPORTIONAL_P and math.isfinite(a) and math.isfinite(b):
+        return a, b
+    return None
 
 
 def stats_text(row: dict) -> Text:
-    """Three lines of agreement.csv for one parameter and pair."""
+    """agreement.csv for one parameter and pair: three lines, then its notes in full (they wrap)."""
     t = Text()
     if not row:
         return Text("no agreement row", style="dim")
     t.append(f" n {int(row['n_nights'])} nights, {int(row['n_participants'])} participants   ")
-    t.append(f"bias {_f(row['bias'])} [{_f(row['bias_ci_low'])}, {_f(row['bias_ci_high'])}]  ", style="bold")
-    t.append(f"SD {_f(row['sd'])}\n")
-    t.append(f" limits of agreement {_f(row['loa_low'])} to {_f(row['loa_high'])}", style="bold")
-    t.append(f"   multi-night {_f(row['mn_loa_low'])} to {_f(row['mn_loa_high'])}\n")
-    t.append(f" CCC {_f(row['ccc'], 2)}  ICC {_f(row['icc'], 2)}  prop. slope {_f(row['prop_slope'], 2)}"
-             f" (p {_f(row['prop_p'], 3)})")
+    t.append(f"bias {_n(row['bias'])} [{_n(row['bias_ci_low'])}, {_n(row['bias_ci_high'])}]  ", style="bold")
+    t.append(f"SD {_n(row['sd'])}\n")
+    t.append(f" limits of agreement {_n(row['loa_low'])} to {_n(row['loa_high'])}", style="bold")
+    t.append(f"   multi-night {_n(row['mn_loa_low'])} to {_n(row['mn_loa_high'])}\n")
+    p = format_p(row.get("prop_p"))
+    p = p if p.startswith("<") else f"= {p}"
+    t.append(f" CCC {_n(row['ccc'], 2)}  ICC {_n(row['icc'], 2)}  prop. slope {_n(row['prop_slope'], 2)} (p {p})")
     note = row.get("note") or ""
     if isinstance(note, str) and note:
-        t.append(f"  {note}", style="yellow")
+        t.append(f"\n note: {note}", style="italic")
     return t
 
 
@@ -64,6 +78,7 @@ class AgreementScreen(Screen):
     def __init__(self) -> None:
         super().__init__()
         self.points = None
+        self.row: dict = {}
         self.selected = 0
         self.version = -1
 
@@ -86,21 +101,26 @@ class AgreementScreen(Screen):
         ws, choice = self.app.workspace, self.app.choice
         self.version = ws.version
         test, ref = choice.pair
-        self.query_one("#choice", Static).update(choice_line(choice, f"differences {test} − {ref}"))
+        self.query_one("#choice", Static).update(choice_line(choice))
         row = ws.agreement_row(test, ref, choice.parameter)
         self.query_one("#stats", Static).update(stats_text(row))
         pts = ws.agreement_points(test, ref, choice.parameter)
         self.points = pts.sort_values(["mean", "participant", "night"]).reset_index(drop=True)
         self.selected = min(self.selected, max(len(self.points) - 1, 0))
-        self._draw(row)
+        self.row = row
+        self._draw()
 
-    def _draw(self, row: dict | None = None) -> None:
+    def _draw(self) -> None:
         ws, choice = self.app.workspace, self.app.choice
         bias, low, high = ws.limits(choice.pair_label, choice.parameter)
         pts = self.points
         sel = self.selected if len(pts) else None
+        test, ref = (SOURCE_NAMES[s] for s in choice.pair)
+        unit = PARAMETERS[choice.parameter].unit if choice.parameter in PARAMETERS else ""
         self.query_one(BlandAltmanPlot).show(pts["mean"].to_numpy(float), pts["difference"].to_numpy(float),
-                                             bias, low, high, sel)
+                                             bias, low, high, sel, line=proportional_line(self.row or {}),
+                                             x_label=f"mean of {test} and {ref} [{unit}]",
+                                             y_label=f"{test} − {ref} [{unit}]")
         info = self.query_one("#point", Static)
         if sel is None:
             info.update("no paired nights")
@@ -109,7 +129,7 @@ class AgreementScreen(Screen):
         beyond = np.isfinite(low) and (p["difference"] < low or p["difference"] > high)
         text = Text()
         text.append(f" ◆ {p['participant']} {p['night']}", style="bold")
-        text.append(f"  mean {p['mean']:.1f}  difference {p['difference']:+.1f}")
+        text.append(f"  mean {format_number(p['mean'], 1)}  difference {format_number(p['difference'], 1, signed=True)}")
         if beyond:
             text.append("  beyond the limits", style="bold red")
         text.append(f"   point {sel + 1} of {len(pts)}", style="dim")

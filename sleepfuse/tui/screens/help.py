@@ -22,7 +22,8 @@ GLYPHS = [
     ("night: diary", "T tried to sleep, O estimated onset (T + SOL), F final awakening, U out of bed"),
     ("night: win", "├──┤ the sleep opportunity of PSG, actigraphy and diary"),
     ("night: table", "* a difference beyond the study's limits of agreement for that pair"),
-    ("agreement plot", "• a night (● several), ◆ selected, ─ bias, ╌ limits of agreement, · zero"),
+    ("agreement plot", "• a night (● several), ◆ selected, ─ bias, ╌ limits of agreement, · zero, "
+                       "╱ ╲ regression of the difference on the mean where proportional bias is flagged"),
 ]
 
 
