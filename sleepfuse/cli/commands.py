@@ -34,24 +34,29 @@ def register(sub) -> None:
 
 
 def run_score(args: argparse.Namespace) -> int:
-    from sleepfuse.output.files import write_text
-    from sleepfuse.run.participant import run_study
     from sleepfuse.cli.progress import participant_progress
+    from sleepfuse.model.config import load_config
+    from sleepfuse.model.qc import qc_summary
+    from sleepfuse.output.files import write_text
+    from sleepfuse.run.engine import run_study_jobs
+    from sleepfuse.scoring.nights import ScoredParticipant, night_table
+    from sleepfuse.study.review import apply_decisions, load_decisions
 
+    config = load_config(args.study)
     with participant_progress() as update:
-        result = run_study(args.study, progress=update, keep_detail=False)
-    if result.nights.empty:
+        outcomes, qc, _ = run_study_jobs(config, progress=update)
+    nights = apply_decisions(night_table([ScoredParticipant(o.participant, rows=o.rows) for o in outcomes]),
+                             load_decisions(config.root))
+    if nights.empty:
         print("sleepfuse: no night could be scored; see the QC log with 'sleepfuse check'", file=sys.stderr)
         return 1
-    text = result.nights.to_csv(index=False, lineterminator="\n")
+    text = nights.to_csv(index=False, lineterminator="\n")
     if args.out is None:
         sys.stdout.write(text)
     else:
         write_text(args.out, text)
-        print(f"wrote {len(result.nights)} rows to {args.out}", file=sys.stderr)
-    problems = sum(1 for e in result.qc if e.severity != "info")
-    if problems:
-        print(f"{problems} QC warnings/errors; see 'sleepfuse check {args.study}'", file=sys.stderr)
+        print(f"wrote {len(nights)} rows to {args.out}", file=sys.stderr)
+    print(f"QC log: {qc_summary(qc)}; see 'sleepfuse check {args.study}'", file=sys.stderr)
     return 0
 
 
@@ -108,6 +113,8 @@ def run_batch_command(args: argparse.Namespace) -> int:
     import pandas as pd
 
     from sleepfuse.cli.progress import progress_bars
+    from sleepfuse.model.definitions import instrument_nights
+    from sleepfuse.model.qc import qc_summary
     from sleepfuse.run.batch import BatchOptions, run_batch
     from sleepfuse.run.distributed import DaskUnavailable
 
@@ -130,8 +137,10 @@ def run_batch_command(args: argparse.Namespace) -> int:
     if len(warnings) > CONSOLE_WARNINGS:
         print(f"... and {len(warnings) - CONSOLE_WARNINGS} more warnings: see qc.{args.format} in {args.out}",
               file=sys.stderr)
+    print(f"QC log: {qc_summary(result.tables['qc']['severity'])}", file=sys.stderr)
     print(f"{result.n_participants} participants ({result.n_recomputed} computed, {result.n_from_cache} from cache), "
-          f"{result.n_scored_nights} included nights; wrote {len(result.written)} files to {args.out}", file=sys.stderr)
+          f"{instrument_nights(result.tables['nights'])} included; wrote {len(result.written)} files to {args.out}",
+          file=sys.stderr)
     if result.n_scored_nights == 0:
         print("sleepfuse: nothing could be processed; see qc in the output folder", file=sys.stderr)
         return 1

@@ -28,11 +28,13 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser(
         "check",
-        help="read every file of a study and print the QC log and the nights per instrument",
-        description="Read every file of STUDY, print the QC log and, per participant, the nights each instrument covers.",
+        help="read and score every file of a study and print the QC log and the nights per instrument",
+        description="Read and score every file of STUDY as 'batch' does (without writing anything), print the "
+        "QC log (the same entries and counts as batch's qc table) and, per participant, the nights each "
+        "instrument has.",
     )
     p.add_argument("study", type=study_dir, metavar="STUDY", help="study folder (psg/, actigraphy/, diary/, study.toml)")
-    p.add_argument("--quiet", action="store_true", help="print only warnings and errors of the QC log")
+    p.add_argument("--quiet", action="store_true", help="print only warnings and errors of the QC log (no notes)")
     p.set_defaults(func=_run_check)
 
     _add_later_commands(sub)
@@ -46,16 +48,25 @@ def _add_later_commands(sub) -> None:
 
 
 def _run_check(args: argparse.Namespace) -> int:
+    """Read and score every participant as batch does, and print everything the QC log holds."""
     from sleepfuse.cli.console import print_check
-    from sleepfuse.study.folder import load_study
+    from sleepfuse.cli.progress import participant_progress
+    from sleepfuse.model.config import load_config
+    from sleepfuse.run.engine import run_study_jobs
 
     try:
-        study = load_study(args.study)
+        config = load_config(args.study)
     except ConfigError as exc:
         print(f"sleepfuse: configuration error: {exc}", file=sys.stderr)
         return EXIT_USAGE
-    print_check(study, quiet=args.quiet, out=sys.stdout)
-    readable = any(p.hypnograms or p.actigraphy or p.diary for p in study.participants.values())
+    with participant_progress() as update:
+        outcomes, qc, files = run_study_jobs(config, progress=update)
+    nights: dict[str, dict[str, list[str]]] = {o.participant: {} for o in outcomes}
+    for o in outcomes:
+        for row in o.rows:
+            nights[o.participant].setdefault(row["source"], []).append(str(row["night"]))
+    print_check(config, qc, nights, len(files), quiet=args.quiet, out=sys.stdout)
+    readable = any(o.rows for o in outcomes)
     return EXIT_OK if readable else EXIT_NOTHING
 
 

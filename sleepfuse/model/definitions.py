@@ -94,6 +94,20 @@ SOURCE_NAMES = {"psg": "PSG", "actigraphy": "actigraphy", "diary": "diary"}
 PAIRS = (("actigraphy", "psg"), ("diary", "psg"), ("diary", "actigraphy"))
 
 
+def instrument_nights(nights) -> str:
+    """'140 instrument-nights (11 PSG, 65 actigraphy, 64 diary)': the included rows of a night table per instrument.
+
+    ``nights`` is a night table (a pandas DataFrame with 'source' and 'included');
+    a night counts once per instrument that has it.
+    """
+    counts = {}
+    if len(nights):
+        counts = nights.loc[nights["included"].astype(bool), "source"].value_counts().to_dict()
+    total = sum(counts.get(s, 0) for s in SOURCE_NAMES)
+    parts = ", ".join(f"{counts.get(s, 0)} {name}" for s, name in SOURCE_NAMES.items())
+    return f"{total} instrument-night{'' if total == 1 else 's'} ({parts})"
+
+
 def pair_name(test: str, reference: str) -> str:
     """Pair label, test − reference (SLEEP_PARAMETERS.md)."""
     return f"{test}-{reference}"

@@ -74,3 +74,8 @@ def _no_negative_zero(text: str, signed: bool) -> str:
     if text.startswith("-") and digits.strip("0.") == "":
         return ("+" if signed else "") + digits
     return text
+
+
+def plural(n: int, noun: str, nouns: str | None = None) -> str:
+    """'1 error', '2 errors', '0 errors' (English count and noun; ``nouns`` for an irregular plural)."""
+    return f"{n} {noun if n == 1 else (nouns or noun + 's')}"

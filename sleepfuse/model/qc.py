@@ -79,3 +79,22 @@ class QCLog:
 
         return pd.DataFrame([(e.file, e.participant, e.night, e.severity, e.message) for e in self.entries],
                             columns=QC_COLUMNS)
+
+
+def qc_counts(entries: Iterable[QCEntry | str]) -> dict[str, int]:
+    """Entries per severity (error, warning, info): the one count every command and the app print.
+
+    Takes entries or their severities (the 'severity' column of qc.csv).
+    """
+    counts = {s: 0 for s in ("error", "warning", "info")}
+    for e in entries:
+        counts[getattr(e, "severity", e)] += 1
+    return counts
+
+
+def qc_summary(entries: Iterable[QCEntry | str]) -> str:
+    """'1 error, 4 warnings, 65 notes': the QC log in one line, worded the same everywhere."""
+    from sleepfuse.model.numbers import plural
+
+    c = qc_counts(entries)
+    return f"{plural(c['error'], 'error')}, {plural(c['warning'], 'warning')}, {plural(c['info'], 'note')}"

@@ -18,7 +18,7 @@ from sleepfuse.fusion.epoch_table import epoch_rows
 from sleepfuse.model.config import StudyConfig
 from sleepfuse.model.qc import QCEntry, QCLog
 from sleepfuse.run._alloc import tune_allocator
-from sleepfuse.run.participant import ParticipantJob, process_participant
+from sleepfuse.run.participant import ParticipantJob, plan_jobs, process_participant
 from sleepfuse.study.folder import sha256_of
 
 
@@ -52,6 +52,21 @@ def run_participant(config: StudyConfig, job: ParticipantJob, inputs: list[dict]
     if inputs is None:
         inputs = job_inputs(config, job, scored.digests)
     return ParticipantOutcome(job.participant, scored.rows, scored.rhythm, erows, qc.entries, list(inputs))
+
+
+def run_study_jobs(config: StudyConfig, *, progress: Callable[[str, int, int], None] | None = None,
+                   workers: int = 1) -> tuple[list[ParticipantOutcome], QCLog, list[Path]]:
+    """Every participant run as batch runs them; the QC log holds what reading, scoring and epoch agreement found.
+
+    ``check`` and ``score`` use this, so their QC counts are the counts of
+    ``batch`` and of the app for the same study.
+    """
+    qc = QCLog()
+    jobs, files = plan_jobs(config, qc)
+    outcomes = run_jobs(config, jobs, workers, progress)
+    for o in outcomes:
+        qc.extend(o.qc)
+    return outcomes, qc, files
 
 
 def job_inputs(config: StudyConfig, job: ParticipantJob, digests: dict[Path, str] | None = None) -> list[dict]:

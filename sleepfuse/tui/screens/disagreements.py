@@ -7,8 +7,6 @@ reason when one is known (sleepfuse.fusion.disagreement). Enter opens the night.
 
 from __future__ import annotations
 
-import math
-
 from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -18,7 +16,7 @@ from textual.widgets import DataTable, Footer, Static
 from sleepfuse.model.definitions import PARAMETERS
 from ..widgets.appbar import AppBar
 from ..widgets.table import CursorTable
-from sleepfuse.model.numbers import fmt
+from sleepfuse.model.numbers import fmt, format_number
 from .choice import choice_line
 from . import tcss
 
@@ -52,7 +50,7 @@ class DisagreementScreen(Screen):
     def on_mount(self) -> None:
         table = self.query_one("#ranked", DataTable)
         for label, width in (("#", 3), ("id", 4), ("night", 10), ("test", 6), ("ref", 6), ("diff", 7),
-                             ("×LoA", 6), ("likely reason", 24)):
+                             ("×LoA", 6), ("likely reason", 22)):
             table.add_column(label, width=width, key=label)
         self.fill()
         table.focus()
@@ -66,9 +64,9 @@ class DisagreementScreen(Screen):
         self.version = ws.version
         test, ref = choice.pair
         self.ranked = ws.disagreements(test, ref, choice.parameter, by=choice.by)
-        order = "|diff − bias| / LoA" if choice.by == "relative" else "|difference|"
+        order = "×LoA" if choice.by == "relative" else "|diff|"
         self.query_one("#choice", Static).update(
-            choice_line(choice, f"ranked by {order} (s) · {len(self.ranked)} nights"))
+            choice_line(choice, f"{len(self.ranked)} nights by {order} (s)"))
         unit = PARAMETERS[choice.parameter].unit
         rows = []
         for k, r in enumerate(self.ranked.itertuples(index=False), start=1):
@@ -78,7 +76,7 @@ class DisagreementScreen(Screen):
                 str(k), r.participant, r.night,
                 Text(fmt(r.test_value, unit), justify="right"), Text(fmt(r.reference_value, unit), justify="right"),
                 Text(fmt(r.difference, unit, signed=True), justify="right"),
-                Text(("–" if not math.isfinite(ratio) else f"{ratio:+.1f}") + ("*" if flag else " "),
+                Text(format_number(ratio, 1, signed=True) + ("*" if flag else " "),
                      justify="right", style="bold red" if flag else ""),
                 Text(r.reason or "", style="yellow"),
             ])

@@ -103,8 +103,8 @@ class NightScreen(Screen):
             for t, r in PAIRS:
                 name = pair_name(t, r)
                 d = line.differences.get(name)
-                if d is None:
-                    row.append("")
+                if d is None:  # a source without the value: the same dash as a missing value
+                    row.append(Text(fmt(None, line.unit) + " ", justify="right"))
                     continue
                 flag = line.beyond.get(name, False)
                 row.append(Text(fmt(d, line.unit, signed=True) + ("*" if flag else " "), justify="right",

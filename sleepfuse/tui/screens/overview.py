@@ -19,7 +19,9 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, ProgressBar, Static
 from textual.worker import get_current_worker
 
-from sleepfuse.model.definitions import SOURCE_NAMES
+from sleepfuse.model.definitions import SOURCE_NAMES, instrument_nights
+from sleepfuse.model.numbers import plural
+from sleepfuse.model.qc import qc_summary
 from sleepfuse.run.session import SOURCES, StudyLoader, Workspace, night_cells
 from ..messages import ParticipantsScored, StudyFailed, StudyLoaded, StudyPlanned
 from ..widgets.appbar import AppBar
@@ -170,7 +172,8 @@ class OverviewScreen(Screen):
         self._sync_cells(ws)
         self.query_one("#loading").display = False
         self._update_side()
-        self.notify(f"{len(ws.participants)} participants, {len(ws.nights)} instrument-nights scored")
+        self.notify(f"{plural(len(ws.participants), 'participant')}, {instrument_nights(ws.nights)} included; "
+                    f"QC log: {qc_summary(ws.qc)}", timeout=6)
 
     def on_study_failed(self, message: StudyFailed) -> None:
         self.query_one("#load-label", Static).update(f"could not open the study: {message.error}")
