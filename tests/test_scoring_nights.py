@@ -156,7 +156,8 @@ def test_no_sleep_night_is_not_an_error(tmp_path):
 
 
 def test_window_times_written_as_pandas_isoformat():
-    # Reference: pandas Timestamp.isoformat (the night table's window_start / window_end text).
+    # Reference: pandas Timestamp.isoformat of the time rounded to the second in UTC (the night table's
+    # window_start / window_end text: whole seconds, issue 15.14).
     from sleepfuse.scoring.nights import _iso
 
     rng = np.random.default_rng(11)
@@ -165,9 +166,10 @@ def test_window_times_written_as_pandas_isoformat():
             for value in rng.integers(0, 4_000_000_000 * 10**9, size=40):
                 t = pd.Timestamp(int(value), unit="ns", tz="UTC")
                 t = (t.tz_convert(zone) if zone else t.tz_localize(None)).as_unit(unit)
-                assert _iso(t) == t.isoformat()
-            t = pd.Timestamp("1900-01-01 00:00:00.000000001").as_unit("ns")  # nanoseconds: pandas' own digits
-            assert _iso(t) == t.isoformat()
+                whole = t.tz_convert("UTC").round("s").tz_convert(zone) if zone else t.round("s")
+                assert _iso(t) == whole.isoformat()
+            t = pd.Timestamp("1900-01-01 00:00:00.000000001").as_unit("ns")  # nanoseconds: rounded away
+            assert _iso(t) == "1900-01-01T00:00:00"
 
 
 def test_tib_is_exact_when_lights_fall_off_the_epoch_grid(tmp_path):

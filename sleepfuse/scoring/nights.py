@@ -97,9 +97,16 @@ def _row(participant: str, night: dt.date, source: str) -> dict:
 
 
 def _iso(t: pd.Timestamp) -> str:
-    """``t.isoformat()``: datetime's own method when there are no nanoseconds (the same text, a
-    little faster; pandas adds digits only for nanoseconds)."""
-    return t.isoformat() if t.nanosecond else _datetime_iso(t)
+    """The time in whole seconds with its offset ('2026-10-28T06:47:30-06:00'), rounded to the nearest second.
+
+    A window may start at a fraction of a second (an EDF+ record onset); printing
+    it as is gave float noise ('06:47:30.430999999') beside microseconds. Whole
+    seconds keep every time stamp of the table in one form; the parameters are
+    computed from the exact times.
+    """
+    if t.microsecond or t.nanosecond:  # rounded in UTC: wall-clock rounding fails on the repeated DST hour
+        t = t.tz_convert("UTC").round("s").tz_convert(t.tz) if t.tz is not None else t.round("s")
+    return _datetime_iso(t)
 
 
 _datetime_iso = dt.datetime.isoformat
