@@ -7,13 +7,16 @@ in as ``preloaded``; one test loads through the real worker path.
 from __future__ import annotations
 
 import csv
+import datetime as dt
 import json
+from zoneinfo import ZoneInfo
 
 import pytest
 from textual.widgets import DataTable, Input, Static
 
 from sleepfuse import RESEARCH_CAUTION
 from sleepfuse.run.participant import run_study
+from sleepfuse.study.review import default_reviewer
 from sleepfuse.tui.app import create_app
 from sleepfuse.tui.screens.agreement import AgreementScreen
 from sleepfuse.tui.screens.disagreements import DisagreementScreen
@@ -151,7 +154,7 @@ async def test_agreement_screen_points_and_jump(demo):
 async def test_exclude_with_reason_saved_reloaded_and_exported(tmp_path, demo):
     study = copy_study(tmp_path / "study")
     out = tmp_path / "out"
-    app = create_app(study, preloaded=demo, export_dir=out)
+    app = create_app(study, preloaded=demo, export_dir=out, reviewer="R. Okafor")
     async with app.run_test(size=SIZE) as pilot:
         await goto_cell(pilot, "P04", "2026-11-01")
         await pilot.press("x")
@@ -168,6 +171,11 @@ async def test_exclude_with_reason_saved_reloaded_and_exported(tmp_path, demo):
             rows = list(csv.DictReader(fh))
         assert [(r["participant"], r["night"], r["source"], r["decision"], r["reason"]) for r in rows] == [
             ("P04", "2026-11-01", "actigraphy", "exclude", "watch off 2 h")]
+        assert rows[0]["reviewer"] == "R. Okafor"  # issue 19.7: who decided, and when in the study's zone
+        decided = dt.datetime.fromisoformat(rows[0]["decided_at"])
+        zone = ZoneInfo("America/Chicago")  # the demo study's [study] timezone
+        assert decided.utcoffset() == decided.astimezone(zone).utcoffset()
+        assert abs((dt.datetime.now(dt.timezone.utc) - decided).total_seconds()) < 600
         await pilot.press("e")
         assert isinstance(app.screen, ExportScreen)
         assert app.screen.query_one(Input).value == str(out)
@@ -195,7 +203,9 @@ async def test_exclude_with_reason_saved_reloaded_and_exported(tmp_path, demo):
         await pilot.press("enter")  # a reason is optional to re-include
         assert cell(restarted, "P04", "2026-11-01") == "·AD "
     with open(study / "sleepfuse-review.csv", newline="") as fh:
-        assert [r["decision"] for r in csv.DictReader(fh)] == ["exclude", "include"]
+        rows = list(csv.DictReader(fh))
+    assert [r["decision"] for r in rows] == ["exclude", "include"]
+    assert rows[1]["reviewer"] == default_reviewer() and rows[1]["reviewer"]  # no --reviewer: the system user
 
 
 @run_async

@@ -30,6 +30,9 @@ def add_open_parser(subparsers) -> argparse.ArgumentParser:
     p.add_argument("study", type=study_dir, metavar="STUDY", help="study folder")
     p.add_argument("--export-dir", type=Path, metavar="DIR", default=None,
                    help="default folder offered by the export dialog (default: STUDY-sleepfuse-out beside the study)")
+    p.add_argument("--reviewer", metavar="NAME", default=None,
+                   help="name recorded with each review decision in STUDY/sleepfuse-review.csv "
+                        "(default: the system user)")
     p.set_defaults(func=run_open)
     return p
 
@@ -57,6 +60,6 @@ def run_open(args: argparse.Namespace) -> int:
         return EXIT_USAGE
     from sleepfuse.tui.app import create_app
 
-    app = create_app(args.study, export_dir=getattr(args, "export_dir", None))
+    app = create_app(args.study, export_dir=getattr(args, "export_dir", None), reviewer=getattr(args, "reviewer", None))
     app.run()
     return int(app.return_code or 0)

@@ -310,9 +310,11 @@ class Workspace:
         return row.iloc[0].to_dict() if not row.empty else {}
 
     # --- review -----------------------------------------------------------------------
-    def decide(self, participant: str, night: str, source: str, decision: str, reason: str) -> Decision:
-        """Save one review decision (atomically, in the study's review file) and update the tables."""
-        d = record_decision(self.root, participant, night, source, decision, reason)
+    def decide(self, participant: str, night: str, source: str, decision: str, reason: str,
+               reviewer: str | None = None) -> Decision:
+        """Save one review decision (atomically, in the study's review file, stamped in the study's zone)."""
+        d = record_decision(self.root, participant, night, source, decision, reason, reviewer=reviewer,
+                            timezone=self.config.timezone)
         self.refresh()
         return d
 

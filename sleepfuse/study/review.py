@@ -1,8 +1,10 @@
 """Review decisions: exclude or re-include one instrument's night, with a reason.
 
 Kept in ``sleepfuse-review.csv`` in the study folder (never in a source file),
-one line per decision, human-readable and written atomically. The last
-decision for a (participant, night, source) wins. Batch and the interface
+one line per decision, human-readable and written atomically: who decided
+(``reviewer``: a name given with ``sleepfuse open --reviewer``, else the
+system user) and when (``decided_at``, in the study's time zone with its UTC
+offset). The last decision for a (participant, night, source) wins. Batch and the interface
 both honour them, and provenance.json lists them.
 """
 
@@ -20,7 +22,7 @@ from sleepfuse.output.files import write_text
 from sleepfuse.model.errors import ConfigError
 
 REVIEW_FILE = "sleepfuse-review.csv"
-REVIEW_COLUMNS = ["participant", "night", "source", "decision", "reason", "decided_at"]
+REVIEW_COLUMNS = ["participant", "night", "source", "decision", "reason", "decided_at", "reviewer"]
 DECISIONS = ("exclude", "include")
 SOURCES = ("psg", "actigraphy", "diary")
 
@@ -32,7 +34,8 @@ class Decision:
     source: str
     decision: str  # exclude | include
     reason: str
-    decided_at: str  # ISO timestamp (UTC)
+    decided_at: str  # ISO timestamp with the UTC offset (the study's zone; older files: UTC)
+    reviewer: str = ""  # who decided (empty in files written before the column existed)
 
 
 def review_path(study: str | Path) -> Path:
@@ -63,7 +66,8 @@ def load_decisions(study: str | Path) -> list[Decision]:
         except ValueError:
             raise ConfigError(f"{REVIEW_FILE} line {i} night", night, "an ISO date such as 2026-10-31", path) from None
         out.append(Decision((row.get("participant") or "").strip(), night, source, decision,
-                            (row.get("reason") or "").strip(), (row.get("decided_at") or "").strip()))
+                            (row.get("reason") or "").strip(), (row.get("decided_at") or "").strip(),
+                            (row.get("reviewer") or "").strip()))
     return out
 
 
@@ -75,16 +79,38 @@ def effective(decisions: list[Decision]) -> dict[tuple[str, str, str], Decision]
     return out
 
 
-def record_decision(study: str | Path, participant: str, night: str, source: str, decision: str, reason: str) -> Decision:
-    """Append a decision and rewrite the file atomically; returns the decision saved."""
+def default_reviewer() -> str:
+    """The system user's name (the reviewer when none is given); 'unknown' where the system cannot tell."""
+    import getpass
+
+    try:
+        return getpass.getuser()
+    except Exception:  # no login name, no USER/LOGNAME variables (some containers)
+        return "unknown"
+
+
+def record_decision(study: str | Path, participant: str, night: str, source: str, decision: str, reason: str,
+                    *, reviewer: str | None = None, timezone: str | None = None) -> Decision:
+    """Append a decision and rewrite the file atomically; returns the decision saved.
+
+    ``decided_at`` is the time now in ``timezone`` (the study's IANA zone) with
+    its offset, e.g. '2026-10-31T09:12:00-05:00'; UTC when no zone is given.
+    ``reviewer`` defaults to the system user.
+    """
     if decision not in DECISIONS:
         raise ValueError(f"decision must be one of {DECISIONS}, got {decision!r}")
     if source not in SOURCES:
         raise ValueError(f"source must be one of {SOURCES}, got {source!r}")
     if decision == "exclude" and not reason.strip():
         raise ValueError("a reason is required to exclude a night")
-    d = Decision(participant, night, source, decision, reason.strip(),
-                 dt.datetime.now(dt.timezone.utc).replace(microsecond=0).isoformat())
+    zone = dt.timezone.utc
+    if timezone:
+        from zoneinfo import ZoneInfo
+
+        zone = ZoneInfo(timezone)
+    now = dt.datetime.now(dt.timezone.utc).astimezone(zone).replace(microsecond=0)
+    d = Decision(participant, night, source, decision, reason.strip(), now.isoformat(),
+                 (reviewer or "").strip() or default_reviewer())
     decisions = load_decisions(study) + [d]
     buf = io.StringIO()
     w = csv.DictWriter(buf, fieldnames=REVIEW_COLUMNS, lineterminator="\n")

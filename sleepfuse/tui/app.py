@@ -32,7 +32,7 @@ class SleepfuseApp(App):
     BINDINGS = [Binding("question_mark", "help", "Help", key_display="?")]
 
     def __init__(self, study: Path, *, workspace: Workspace | None = None, study_name: str = "",
-                 export_dir: Path | None = None) -> None:
+                 export_dir: Path | None = None, reviewer: str | None = None) -> None:
         super().__init__()
         self._filters = use_legible_monochrome(self._filters)  # NO_COLOR: every mark keeps its contrast
         self.study = Path(study)
@@ -41,6 +41,7 @@ class SleepfuseApp(App):
         self.export_dir = Path(export_dir) if export_dir else self.study.resolve().parent / f"{self.study.name}-sleepfuse-out"
         self.export_dir_given = export_dir is not None  # --export-dir wins over the folder remembered
         self.choice = PairChoice()
+        self.reviewer = reviewer  # recorded with each review decision (None: the system user)
 
     def on_mount(self) -> None:
         self.push_screen(OverviewScreen())
@@ -91,7 +92,7 @@ class SleepfuseApp(App):
 
 
 def create_app(study: str | Path, *, preloaded: StudyResult | Workspace | None = None,
-               export_dir: str | Path | None = None) -> SleepfuseApp:
+               export_dir: str | Path | None = None, reviewer: str | None = None) -> SleepfuseApp:
     """The app for one study folder; scoring happens in a worker unless ``preloaded`` is given."""
     study = Path(study)
     workspace = Workspace.from_result(study, preloaded) if isinstance(preloaded, StudyResult) else preloaded
@@ -104,4 +105,5 @@ def create_app(study: str | Path, *, preloaded: StudyResult | Workspace | None =
             name = load_config(study).study.name
         except (ConfigError, OSError):
             name = study.name  # the loading worker reports the error on screen
-    return SleepfuseApp(study, workspace=workspace, study_name=name, export_dir=Path(export_dir) if export_dir else None)
+    return SleepfuseApp(study, workspace=workspace, study_name=name, export_dir=Path(export_dir) if export_dir else None,
+                        reviewer=reviewer)

@@ -319,5 +319,6 @@ def side_panel(ws: Workspace, pid: str, night: str | None) -> Text:
     if summary["decisions"]:
         t.append("\nreview decisions\n", style="bold")
         for d in summary["decisions"]:
-            t.append(f" {d.night[5:]} {d.source} {d.decision}: {d.reason}\n")
+            by = f" ({d.reviewer})" if d.reviewer else ""
+            t.append(f" {d.night[5:]} {d.source} {d.decision}{by}: {d.reason}\n")
     return t

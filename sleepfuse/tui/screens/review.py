@@ -110,7 +110,7 @@ def review_night(screen, participant: str, night: str, decision: str, *, initial
             return
         source, reason = answer
         try:
-            ws.decide(participant, night, source, decision, reason)
+            ws.decide(participant, night, source, decision, reason, reviewer=screen.app.reviewer)
         except (OSError, ValueError) as exc:
             screen.notify(f"decision not saved: {exc}", severity="error")
             return
