@@ -16,6 +16,8 @@ from . import tcss
 GLYPHS = [
     ("overview cell", "P A D in fixed places = PSG, actigraphy, diary have the night; · missing; × excluded; "
                       "! the QC log has a warning or error for that night"),
+    ("night: axis", "┊ an hour in the study's time zone; ╪ the first hour after a clock change (daylight saving), "
+                    "with the new zone's abbreviation where it fits"),
     ("night: PSG rows", "one row per stage (W, R, N1, N2, N3): the block sits at the stage's height; ? unscored"),
     ("night: counts", "activity counts per column, ▁ to █ (95th percentile of the night = █)"),
     ("night: wrist", "█ sleep · wake × off-wrist ? unscored (per-minute scoring)"),

@@ -188,20 +188,38 @@ def draw(pic: NightPicture, width: int) -> list[Text]:
 
 
 def _axis(pic: NightPicture, width: int) -> Text:
+    """Hour ticks in the study's zone: ┊ an hour, ╪ the first hour after a clock change (with the new zone's
+    abbreviation where it fits); the last hour is labelled too (left of its tick when there is no room right)."""
     chars = [" "] * width
     t0, t1 = pic.t0_ns, pic.t1_ns
     first = pd.Timestamp(t0, tz="UTC").ceil("h")
     hours = pd.date_range(first, pd.Timestamp(t1, tz="UTC"), freq="h")
     per_hour = width / max((t1 - t0) / (3600 * NS_PER_S), 1e-9)
     step = 1 if per_hour >= 6 else (2 if per_hour >= 3 else 4)
-    for k, h in enumerate(hours):
-        if k % step:
+    local = [h.tz_convert(pic.timezone) for h in hours]
+    changed = {k for k in range(1, len(local)) if local[k].utcoffset() != local[k - 1].utcoffset()}
+    last = len(hours) - 1
+    order = sorted(range(len(hours)), key=lambda k: (k not in changed, k != last, k))  # marks first
+    for k in order:
+        if k % step and k not in changed and k != last:
             continue
-        c = _col(h.value, t0, t1, width)
-        local = h.tz_convert(pic.timezone)
-        label = f"┊{local:%H}" + (":00" if per_hour * step >= 7 else "")
-        if c + len(label) <= width and all(ch == " " for ch in chars[c:c + len(label)]):
-            chars[c:c + len(label)] = label
+        c = _col(hours[k].value, t0, t1, width)
+        hh = f"{local[k]:%H}"
+        tick = "╪" if k in changed else "┊"
+        room = per_hour * step >= 7
+        candidates = []
+        if k in changed:
+            zone = local[k].tzname() or ""
+            candidates += [(c, f"{tick}{hh}:00 {zone}"), (c, f"{tick}{hh} {zone}")]
+        if room:
+            candidates.append((c, f"{tick}{hh}:00"))
+        candidates += [(c, f"{tick}{hh}"), (c - 2, f"{hh}{tick}")]
+        for start, label in candidates:
+            # a blank column on either side keeps two labels apart
+            lo, hi = max(start - 1, 0), start + len(label)
+            if start >= 0 and hi <= width and all(ch == " " for ch in chars[lo:hi + 1]):
+                chars[start:start + len(label)] = label
+                break
     return Text(" " * GUTTER + "".join(chars), style="dim")
 
 
