@@ -117,3 +117,15 @@ async def test_help_opens_and_closes_in_one_burst(demo):
         assert app.screen.current() == ("P02", "2026-10-31")
         await burst(pilot, "?")
         assert isinstance(app.screen, HelpScreen)
+
+
+@run_async
+async def test_messages_never_pile_up(demo):
+    """Issue 15.13: stepping past the last night three times leaves one message on screen, not three."""
+    app = create_app(SAMPLE, preloaded=demo)
+    async with app.run_test(size=SIZE) as pilot:
+        await goto_cell(pilot, "P01", "2026-11-04")
+        await burst(pilot, "enter", "]", "]", "]")
+        assert opened(app) == ("P01", "2026-11-04")
+        assert len(app._notifications) == 1
+        assert "no later night" in next(iter(app._notifications)).message

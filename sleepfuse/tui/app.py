@@ -24,12 +24,21 @@ from .screens.overview import OverviewScreen
 from .screens.review import ReviewDialog
 
 
+TABLE_KEYS = [("PgUp PgDn", "a page up or down"), ("Home End", "first or last column"),
+              ("Ctrl+Home/End", "first or last row")]
+
+
 class SleepfuseApp(App):
     """Overview first; night, disagreements, agreement, clusters, export and help are pushed on top."""
 
     TITLE = "sleepfuse"
     ENABLE_COMMAND_PALETTE = False
     BINDINGS = [Binding("question_mark", "help", "Help", key_display="?")]
+    # messages: compact, one at a time, kept clear of the footer and the overview's legend line
+    CSS = """
+    ToastRack { margin-bottom: 2; }
+    Toast { max-width: 44; padding: 0 1; }
+    """
 
     def __init__(self, study: Path, *, workspace: Workspace | None = None, study_name: str = "",
                  export_dir: Path | None = None, reviewer: str | None = None) -> None:
@@ -45,6 +54,21 @@ class SleepfuseApp(App):
 
     def on_mount(self) -> None:
         self.push_screen(OverviewScreen())
+
+    def notify(self, message: str, *, title: str = "", severity: str = "information",
+               timeout: float | None = None, markup: bool = False) -> None:
+        """One message at a time: a new one replaces the last, so they never pile up over the screen.
+
+        Information goes after 4 s, errors stay 12 s; text is shown as written (no markup).
+        """
+        if timeout is None:
+            timeout = 12.0 if severity == "error" else 4.0
+        super().notify(message, title=title, severity=severity, timeout=timeout, markup=markup)
+
+    def _on_notify(self, event) -> None:
+        """A message arriving replaces the one on screen (messages are posted, so this is where they land)."""
+        self._notifications.clear()
+        super()._on_notify(event)
 
     def _loaded(self) -> bool:
         if self.workspace is None:
@@ -79,13 +103,13 @@ class SleepfuseApp(App):
         """(screen title, bindings, extra keys) for the help screen."""
         return [
             ("Everywhere", list(self.BINDINGS) + [Binding("ctrl+q", "quit", "Quit at once")], []),
-            ("Study overview", OverviewScreen.BINDINGS, OverviewScreen.HELP_KEYS),
-            ("Night view", NightScreen.BINDINGS, [("↑ ↓", "scroll the parameter table")]),
-            ("Disagreements", DisagreementScreen.BINDINGS, [("↑ ↓", "move in the ranking")]),
+            ("Study overview", OverviewScreen.BINDINGS, OverviewScreen.HELP_KEYS + TABLE_KEYS),
+            ("Night view", NightScreen.BINDINGS, [("↑ ↓", "scroll the parameter table")] + TABLE_KEYS),
+            ("Disagreements", DisagreementScreen.BINDINGS, [("↑ ↓", "move in the ranking")] + TABLE_KEYS),
             ("Agreement", AgreementScreen.BINDINGS, []),
             ("Clusters (c)", ExploreScreen.BINDINGS, ExploreScreen.HELP_KEYS),
             ("Review dialog (x, i)", ReviewDialog.BINDINGS,
-             [("enter", "save the decision")]),
+             [("Enter", "save the decision")]),
             ("Export (e)", ExportScreen.BINDINGS, ExportScreen.HELP_KEYS),
             ("Help", HelpScreen.BINDINGS, []),
         ]

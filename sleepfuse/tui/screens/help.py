@@ -29,27 +29,56 @@ GLYPHS = [
 ]
 
 
-def _key(b: Binding) -> str:
-    return b.key_display or b.key
+KEY_NAMES = {"escape": "Esc", "enter": "Enter", "left": "←", "right": "→", "up": "↑", "down": "↓",
+             "question_mark": "?", "left_square_bracket": "[", "right_square_bracket": "]",
+             "left_curly_bracket": "{", "right_curly_bracket": "}", "plus": "+", "minus": "−", "slash": "/",
+             "pageup": "PgUp", "pagedown": "PgDn", "home": "Home", "end": "End", "tab": "Tab"}
+KEY_WIDTH, INDENT = 14, 2
 
 
-def help_text(sections: list[tuple[str, list[Binding], list[tuple[str, str]]]]) -> Text:
+def key_names(b: Binding) -> str:
+    """Every key of a binding as printed on the keyboard ('Esc q', '← h', 'Ctrl+Q')."""
+    names = []
+    for key in b.key.split(","):
+        key = key.strip()
+        if key.startswith("ctrl+"):
+            names.append("Ctrl+" + KEY_NAMES.get(key[5:], key[5:].upper()))
+        else:
+            names.append(KEY_NAMES.get(key, key))
+    return " ".join(dict.fromkeys(names))
+
+
+def _wrap(words: str, width: int) -> list[str]:
+    import textwrap
+
+    return textwrap.wrap(words, width=max(width, 20), break_on_hyphens=False) or [""]
+
+
+def _entry(t: Text, key: str, what: str, width: int, key_width: int = KEY_WIDTH) -> None:
+    """One key and its meaning; continuation lines start under the meaning, never at column 0."""
+    lines = _wrap(what, width - INDENT - key_width)
+    t.append(" " * INDENT + f"{key:<{key_width}}", style="bold")
+    t.append(lines[0] + "\n")
+    for line in lines[1:]:
+        t.append(" " * (INDENT + key_width) + line + "\n")
+
+
+def help_text(sections: list[tuple[str, list[Binding], list[tuple[str, str]]]], width: int = 80) -> Text:
+    """Every key of every screen, the glyphs and the caution, wrapped to ``width`` with hanging indents."""
     t = Text()
     for title, bindings, extra in sections:
         t.append(f"{title}\n", style="bold underline")
         for b in bindings:
-            t.append(f"  {_key(b):<14}", style="bold")
-            t.append(f"{b.description}" + (f" — {b.tooltip}" if b.tooltip else "") + "\n")
+            _entry(t, key_names(b), f"{b.description}" + (f" — {b.tooltip}" if b.tooltip else ""), width)
         for key, what in extra:
-            t.append(f"  {key:<14}", style="bold")
-            t.append(f"{what}\n")
+            _entry(t, key, what, width)
         t.append("\n")
     t.append("Glyphs\n", style="bold underline")
     for name, what in GLYPHS:
-        t.append(f"  {name:<16}", style="bold")
-        t.append(f"{what}\n")
+        _entry(t, name, what, width, key_width=17)
     t.append("\nResearch use\n", style="bold underline")
-    t.append(f"  {RESEARCH_CAUTION}\n")
+    for line in _wrap(RESEARCH_CAUTION, width - INDENT):
+        t.append(" " * INDENT + line + "\n")
     return t
 
 
@@ -61,16 +90,24 @@ class HelpScreen(Screen):
         Binding("escape,q", "back", "Back", key_display="q"),
         Binding("j,down", "scroll(1)", "Scroll down", show=False),
         Binding("k,up", "scroll(-1)", "Scroll up", show=False),
+        Binding("pagedown,space", "scroll(6)", "Page down", show=False),
+        Binding("pageup", "scroll(-6)", "Page up", show=False),
     ]
 
     def compose(self) -> ComposeResult:
         yield AppBar(self.app.study_name, "help")
         with VerticalScroll(id="help-body"):
-            yield Static(help_text(self.app.help_sections()), id="help-text")
+            yield Static(help_text(self.app.help_sections(), self._width()), id="help-text")
         yield Footer()
+
+    def _width(self) -> int:
+        return max((self.app.size.width or 80) - 4, 40)  # the body's padding and scroll bar
 
     def on_mount(self) -> None:
         self.query_one("#help-body").focus()
+
+    def on_resize(self) -> None:
+        self.query_one("#help-text", Static).update(help_text(self.app.help_sections(), self._width()))
 
     def action_scroll(self, step: int) -> None:
         body = self.query_one("#help-body", VerticalScroll)

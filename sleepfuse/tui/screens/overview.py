@@ -71,7 +71,7 @@ class OverviewScreen(Screen):
         Binding("k", "move('up')", "Cursor up", show=False),
         Binding("l", "move('right')", "Cursor right", show=False),
     ]
-    HELP_KEYS = [("arrows", "move between participants and nights")]
+    HELP_KEYS = [("← → ↑ ↓", "move between nights and participants (as h l k j)")]
 
     def __init__(self) -> None:
         super().__init__()
