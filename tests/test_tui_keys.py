@@ -129,3 +129,23 @@ async def test_messages_never_pile_up(demo):
         assert opened(app) == ("P01", "2026-11-04")
         assert len(app._notifications) == 1
         assert "no later night" in next(iter(app._notifications)).message
+
+
+@run_async
+async def test_a_reason_typed_right_after_x_reaches_the_dialog(tmp_path, demo):
+    """x opens the review dialog; the letters typed behind it in the same burst are its reason."""
+    from sleepfuse.tui.screens.review import ReviewDialog
+
+    from tui_helpers import copy_study
+
+    study = copy_study(tmp_path / "study")
+    app = create_app(study, preloaded=demo)
+    async with app.run_test(size=SIZE) as pilot:
+        await goto_cell(pilot, "P04", "2026-11-01")
+        await burst(pilot, "x", *"watch off", "enter")
+        assert isinstance(app.screen, OverviewScreen)  # saved and closed: the reason was there
+        assert "watch off" in (study / "sleepfuse-review.csv").read_text()
+        await burst(pilot, "x", "a", "escape", "a")  # 'a' is text in the dialog, then opens agreement after Esc
+        assert isinstance(app.screen, AgreementScreen)
+        assert not any(isinstance(s, ReviewDialog) for s in app.screen_stack)
+

@@ -13,6 +13,7 @@ from textual.binding import Binding
 
 from sleepfuse.run.participant import StudyResult
 from sleepfuse.run.session import PairChoice, Workspace
+from .keys import KeysInOrder
 from .legible import use_legible_monochrome
 from .screens.agreement import AgreementScreen
 from .screens.disagreements import DisagreementScreen
@@ -28,7 +29,7 @@ TABLE_KEYS = [("PgUp PgDn", "a page up or down"), ("Home End", "first or last co
               ("Ctrl+Home/End", "first or last row")]
 
 
-class SleepfuseApp(App):
+class SleepfuseApp(KeysInOrder, App):
     """Overview first; night, disagreements, agreement, clusters, export and help are pushed on top."""
 
     TITLE = "sleepfuse"
