@@ -40,7 +40,7 @@ def test_line_only_where_proportional_bias_is_flagged():
 def _row(**kw):
     row = dict(n_nights=11, n_participants=7, bias=-0.04, bias_ci_low=-1.0, bias_ci_high=1.0, sd=6.7,
                loa_low=-13.0, loa_high=13.0, mn_loa_low=-14.0, mn_loa_high=14.0, ccc=0.86, icc=0.87,
-               prop_slope=0.64, prop_p=3.6e-6, note="proportional bias (p=3.6e-06); between-participant "
+               prop_slope=0.64, prop_p=3.6e-6, prop_intercept=-250.0, note="proportional bias (p=3.6e-06); between-participant "
                                                     "variance negative, set to 0")
     row.update(kw)
     return row
@@ -55,4 +55,6 @@ def test_p_below_0001_and_no_negative_zero():
 
 def test_notes_are_printed_whole():
     text = str(stats_text(_row()))
-    assert text.rstrip().endswith("between-participant variance negative, set to 0")
+    assert text.rstrip().endswith("note: between-participant variance negative, set to 0")
+    assert "p=3.6e-06" not in text  # the table's own p text is not repeated; the line gives '< 0.001'
+    assert "proportional bias" in text.splitlines()[2]

@@ -55,9 +55,13 @@ def stats_text(row: dict) -> Text:
     p = format_p(row.get("prop_p"))
     p = p if p.startswith("<") else f"= {p}"
     t.append(f" CCC {_n(row['ccc'], 2)}  ICC {_n(row['icc'], 2)}  prop. slope {_n(row['prop_slope'], 2)} (p {p})")
+    if proportional_line(row) is not None:
+        t.append("  proportional bias", style="bold")
     note = row.get("note") or ""
-    if isinstance(note, str) and note:
-        t.append(f"\n note: {note}", style="italic")
+    # the table's note repeats the proportional-bias p in its own format; the line above already says it
+    notes = [n for n in note.split("; ") if n and not n.startswith("proportional bias")] if isinstance(note, str) else []
+    if notes:
+        t.append(f"\n note: {'; '.join(notes)}", style="italic")
     return t
 
 
