@@ -33,7 +33,7 @@ KEY_NAMES = {"escape": "Esc", "enter": "Enter", "left": "←", "right": "→", "
              "question_mark": "?", "left_square_bracket": "[", "right_square_bracket": "]",
              "left_curly_bracket": "{", "right_curly_bracket": "}", "plus": "+", "minus": "−", "slash": "/",
              "pageup": "PgUp", "pagedown": "PgDn", "home": "Home", "end": "End", "tab": "Tab"}
-KEY_WIDTH, INDENT = 14, 2
+KEY_WIDTH, INDENT = 15, 2
 
 
 def key_names(b: Binding) -> str:
