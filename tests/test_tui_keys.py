@@ -149,3 +149,20 @@ async def test_a_reason_typed_right_after_x_reaches_the_dialog(tmp_path, demo):
         assert isinstance(app.screen, AgreementScreen)
         assert not any(isinstance(s, ReviewDialog) for s in app.screen_stack)
 
+
+
+@run_async
+async def test_clusters_screen_keys_in_one_burst(demo):
+    """The clusters screen's model table: moves typed in one burst all count, and q leaves after them."""
+    from sleepfuse.tui.screens.explore import ExploreScreen
+
+    app = create_app(SAMPLE, preloaded=demo)
+    async with app.run_test(size=SIZE) as pilot:
+        await burst(pilot, "c")
+        assert isinstance(app.screen, ExploreScreen)
+        table = app.screen.query_one("#models", DataTable)
+        assert table.row_count >= 3  # two families × K = 1..3 on the demo matrix
+        await burst(pilot, "down", "down")
+        assert table.cursor_row == 2
+        await burst(pilot, "up", "q", "j")
+        assert isinstance(app.screen, OverviewScreen)
