@@ -32,7 +32,7 @@ class KeysInOrder:
         return held
 
     async def on_event(self, event: events.Event) -> None:
-        if isinstance(event, events.Key) and not event.is_forwarded and not getattr(event, "_released", False):
+        if isinstance(event, events.Key) and not event.is_forwarded and not getattr(event, "sleepfuse_released", False):
             held = self._held_keys()
             held.append(event)
             if len(held) == 1:
@@ -44,17 +44,17 @@ class KeysInOrder:
         held = self._held_keys()
         while held:
             event = held[0]
-            event._released = True
+            event.sleepfuse_released = True
             self.post_message(event)  # handled by Textual's own key routing, now with the focus of today
             await self._settled()
             held.popleft()
 
     def _busy(self) -> bool:
-        if not self._message_queue.empty():
+        if self.message_queue_size:
             return True
         for screen in self.screen_stack:
             for node in screen.walk_children(with_self=True):
-                if not node._message_queue.empty():
+                if node.message_queue_size:
                     return True
         return False
 
