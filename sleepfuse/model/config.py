@@ -78,6 +78,9 @@ class ActigraphySection:
     webster_order: str = "sequential"  # rules 4-5 judge the runs left by rules 1-3 ("parallel": the original runs)
     nonwear: str = "auto"  # auto: column if present, else Choi
     sadeh_cap: float = 300.0
+    # counts per MINUTE above this are implausible (read as missing); per epoch the ceiling is scaled
+    # to the epoch length. 16-bit epoch counters stop at 65 535 (from memory); 100 000 leaves headroom.
+    max_count_per_min: float = 100_000.0
 
     def scale_for(self, algorithm: str) -> float:
         """The count scale of ``algorithm``: its own key when set (> 0), else the shared count_scale."""
@@ -97,6 +100,7 @@ class ScoringSection:
     lps_run_min: float = 10.0  # latency to persistent sleep: run length, minutes
     min_wake_bout_min: float = 0.0  # wake bouts shorter than this are not counted in nwak
     max_invalid_pct: float = 50.0  # a night whose window is more than this % unscored/off-wrist is not included
+    max_missing_pct: float = 10.0  # a night whose window is more than this % without data is not included (common practice)
 
 
 @dataclass
@@ -259,14 +263,17 @@ def build_config(root: str | Path, data: dict[str, Any] | None = None, source: P
     _choice("actigraphy.webster_order", act.webster_order, WEBSTER_ORDERS, source)
     if act.sadeh_cap <= 0:
         _fail("actigraphy.sadeh_cap", act.sadeh_cap, "a positive number", source)
+    if not 0 < act.max_count_per_min < float("inf"):
+        _fail("actigraphy.max_count_per_min", act.max_count_per_min, "a positive number of counts per minute", source)
     for k in cfg.diary.columns:
         _choice("diary.columns", k, DIARY_COLUMN_KEYS, source)
     if cfg.scoring.lps_run_min <= 0:
         _fail("scoring.lps_run_min", cfg.scoring.lps_run_min, "a positive number of minutes", source)
     if cfg.scoring.min_wake_bout_min < 0:
         _fail("scoring.min_wake_bout_min", cfg.scoring.min_wake_bout_min, "zero or more minutes", source)
-    if not 0 <= cfg.scoring.max_invalid_pct <= 100:
-        _fail("scoring.max_invalid_pct", cfg.scoring.max_invalid_pct, "a percentage from 0 to 100", source)
+    for key in ("max_invalid_pct", "max_missing_pct"):
+        if not 0 <= getattr(cfg.scoring, key) <= 100:
+            _fail(f"scoring.{key}", getattr(cfg.scoring, key), "a percentage from 0 to 100", source)
     ag = cfg.agreement
     if not 0 < ag.clock_offset_max_min <= 180:
         _fail("agreement.clock_offset_max_min", ag.clock_offset_max_min, "a number of minutes in (0, 180]", source)

@@ -48,6 +48,12 @@ PARAMETERS: dict[str, ParameterInfo] = {
         ParameterInfo("rem_latency_min", "min", "First sleep epoch to the first R epoch (AASM REM latency).", True),
         ParameterInfo("unscored_min", "min", "Unscored, movement-time and unknown-label epochs in the sleep opportunity; never counted as sleep or wake."),
         ParameterInfo("offwrist_min", "min", "Non-wear minutes in the sleep opportunity (off_wrist column, else the Choi et al. 2011 rule); neither sleep nor wake."),
+        ParameterInfo("missing_min", "min", "Actigraphy: minutes of the sleep opportunity with no data (a gap in the file, counts "
+                      "above the plausibility ceiling, or outside the recording); off-wrist minutes are in offwrist_min. They are "
+                      "neither sleep nor wake in every parameter, as PSG's unscored epochs: not in TST or WASO, they end a wake "
+                      "bout and a persistent-sleep run, and they stay in TIB (so SE = TST / TIB counts them as not asleep). A "
+                      "night with more than [scoring] max_missing_pct (default 10%, common practice) of its opportunity "
+                      "without data is not included."),
         ParameterInfo("in_bed_min", "min", "Diary: got into bed to out of bed (consensus sleep diary time in bed)."),
         ParameterInfo("quality", "as entered", "Self-rated sleep quality as entered in the diary (scale as in [diary] quality_scale of study.toml)."),
         ParameterInfo("is", "ratio 0-1", "Interdaily stability on hourly means in counts per minute, non-wear excluded (Van Someren et al. 1999). "

@@ -133,8 +133,8 @@ def parse_counts(values: pd.Series, lines: np.ndarray, instants: np.ndarray, tz:
         counts = pd.to_numeric(text, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan).copy()
     problems: list[Problem] = []
     blank = (text == "").to_numpy()
-    bad = ~np.isfinite(counts) & ~blank
-    negative = np.isfinite(counts) & (counts < 0)
+    bad = np.isnan(counts) & ~blank  # inf is a number: the plausibility ceiling reports it (_countcheck.py)
+    negative = counts < 0  # -inf too
     for mask, what in ((blank, "counts missing"), (bad, "counts not a number"), (negative, "negative counts")):
         idx = np.flatnonzero(mask)
         if idx.size:

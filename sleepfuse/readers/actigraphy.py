@@ -22,6 +22,7 @@ from ._actigraphy_table import ROLES, parse_counts, parse_flags, read_careful, u
 from ._columns import match_columns
 from ._csvtext import BOM, MAX_DETAILED, fast_dialect, line_phrase, plain_text, read_fast_columns, read_raw
 from ._csvtime import _localize_wall
+from ._countcheck import MAX_COUNT_PER_MIN, epoch_change, implausible_counts
 
 ACTIGRAPHY_DEFAULT_COLUMNS = {"timestamp": "timestamp", "counts": "counts", "off_wrist": "off_wrist", "marker": "marker"}
 ALLOWED_EPOCHS_S = (15, 30, 60)
@@ -30,7 +31,8 @@ MAX_SPAN_DAYS = 400  # longer than any wrist recording: a clock error, not data
 _US = 1_000_000  # microseconds per second; instants are int64 µs since the epoch (UTC)
 
 
-def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None, date_order: str = "") -> ActigraphyRecord:
+def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None, date_order: str = "",
+                    max_count_per_min: float = MAX_COUNT_PER_MIN) -> ActigraphyRecord:
     """Read an activity-count CSV into an ActigraphyRecord on a regular epoch grid.
 
     ``tz`` is the study's IANA zone; ``columns`` maps timestamp/date/time/counts/
@@ -79,7 +81,7 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None, dat
             rows = rows.iloc[keep]
         else:
             values = {k: v[keep] for k, v in values.items()}
-    epoch_s = _infer_epoch(path, instants) if instants.size > 1 or header_epoch is None else header_epoch
+    epoch_s = _infer_epoch(path, instants, lines_ok) if instants.size > 1 or header_epoch is None else header_epoch
     if header_epoch is not None and header_epoch != epoch_s:
         problems.append(Problem("warning", f"the header lines give a {header_epoch}-s epoch but the time stamps step "
                                            f"by {epoch_s} s; the time stamps are used"))
@@ -103,6 +105,9 @@ def read_actigraphy(path, tz: str, *, columns: dict[str, str] | None = None, dat
     else:
         counts_row, count_problems = parse_counts(rows[col["counts"]], lines_ok, instants, tz, decimal)
         problems += count_problems
+    # counts no device gives (above the ceiling, infinite): missing, by line; mostly such: rejected (_countcheck.py)
+    counts_row, count_problems = implausible_counts(path, counts_row, lines_ok, epoch_s, max_count_per_min)
+    problems += count_problems
     # every row kept, one per epoch in order (the usual file): place and first_of_slot are both 0..n-1
     identity = place.size == n and first_of_slot.size == counts_row.size
     if identity:
@@ -207,8 +212,9 @@ def _drop_isolated_outliers(instants, lines):
     return np.flatnonzero(~odd), [Problem("warning", msg)]
 
 
-def _infer_epoch(path: Path, instants: np.ndarray) -> int:
-    """Epoch length (s): the most common positive step between timestamps; must be 15, 30 or 60."""
+def _infer_epoch(path: Path, instants: np.ndarray, lines: np.ndarray) -> int:
+    """Epoch length (s): the most common positive step between timestamps; must be 15, 30 or 60; one per file
+    (a change part-way is rejected with its line: ``_countcheck.epoch_change``)."""
     steps = np.diff(instants)
     if steps.size and steps[0] > 0 and (steps == steps[0]).all():  # a regular file: one step throughout
         epoch = int(np.round(steps[0] / _US))
@@ -219,6 +225,8 @@ def _infer_epoch(path: Path, instants: np.ndarray) -> int:
         seconds = np.round(steps / _US).astype(np.int64)
         values, freq = np.unique(seconds, return_counts=True)
         epoch = int(values[np.argmax(freq)])
+        if epoch in ALLOWED_EPOCHS_S:
+            epoch_change(path, ALLOWED_EPOCHS_S, np.round(np.diff(instants) / _US).astype(np.int64), lines, epoch)
     if epoch not in ALLOWED_EPOCHS_S:
         raise ReadError(
             path,

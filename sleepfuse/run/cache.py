@@ -33,7 +33,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 CACHE_DIR = ".sleepfuse-cache"
 CACHE_FILE = "outcomes.sqlite"
-CACHE_FORMAT = 5  # bump when ParticipantOutcome or its JSON form changes (5: window times in whole seconds)
+CACHE_FORMAT = 6  # bump when ParticipantOutcome or its JSON form changes (5: window times in whole seconds; 6: missing_min)
 _LIBRARIES = ("numpy", "pandas", "scipy", "pyedflib")
 _COMMIT_EVERY_S = 2.0
 

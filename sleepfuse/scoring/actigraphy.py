@@ -48,6 +48,8 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from .minutes import _as_1d_float, _as_counts, epochs_to_minutes  # noqa: F401 (epochs_to_minutes: public here too)
+
 if TYPE_CHECKING:  # pragma: no cover
     from sleepfuse.model.config import ActigraphySection
 
@@ -71,43 +73,6 @@ SADEH_OFFSET = 7.601
 SADEH_WEIGHTS = {"mw5": -0.065, "nat": -1.08, "sd6": -0.056, "lg": -0.703}
 SADEH_HALF_WINDOW = 5  # MW5 / NAT window: the epoch ± 5 epochs (11 min)
 SADEH_SD_WINDOW = 6  # SD over the epoch and the five before it
-
-
-def _as_1d_float(x: np.ndarray, name: str) -> np.ndarray:
-    a = np.asarray(x, dtype=float)
-    if a.ndim != 1:
-        raise ValueError(f"{name} must be a 1-D array, got shape {a.shape}")
-    return a
-
-
-def epochs_to_minutes(counts: np.ndarray, epoch_s: float) -> np.ndarray:
-    """Sum consecutive epochs into 1-min counts (common practice).
-
-    ``epoch_s`` (seconds) must divide 60 exactly (15, 30, 60 s...). A minute
-    is NaN if any of its epochs is NaN; a trailing partial minute is dropped.
-    """
-    counts = _as_1d_float(counts, "counts")
-    if not epoch_s > 0:
-        raise ValueError(f"epoch_s must be a positive number of seconds, got {epoch_s!r}")
-    per_min = 60.0 / float(epoch_s)
-    k = int(round(per_min))
-    if k < 1 or abs(per_min - k) > 1e-9:
-        raise ValueError(
-            f"epoch length {epoch_s!r} s does not divide one minute; "
-            "1-min algorithms need epochs of 60 s or an exact fraction of it (e.g. 15, 30 s)"
-        )
-    n_min = counts.size // k
-    blocks = counts[: n_min * k].reshape(n_min, k)
-    if k >= 8:  # numpy's pairwise summation order for longer rows: keep it
-        return blocks.sum(axis=1)
-    # Column by column, left to right: the same additions, in the same order, as
-    # blocks.sum(axis=1) for rows shorter than 8 (bit-identical), and far faster.
-    if k == 1:
-        return blocks[:, 0].copy()
-    out = np.add(blocks[:, 0], blocks[:, 1])
-    for j in range(2, k):
-        out += blocks[:, j]
-    return out
 
 
 def _run_bounds(x: np.ndarray) -> np.ndarray:
@@ -144,16 +109,17 @@ def cole_kripke_index(
     D(t) = P · Σ wₖ · s·A(t+k), k = −4 … +2, where s = ``count_scale``.
     Edges: neighbours beyond the ends of the series are counted as 0 counts
     (zero-padding); a missing (NaN) neighbour inside the series is likewise
-    counted as 0. D is NaN at a minute whose own count is NaN.
+    counted as 0. D is NaN at a minute whose own count is NaN or infinite
+    (infinite counts are missing), and wherever D itself overflows.
     """
     if coefficients not in COLE_KRIPKE_COEFFICIENTS:
         raise ValueError(
             f"unknown Cole–Kripke coefficient set {coefficients!r}; "
             f"allowed: {', '.join(COLE_KRIPKE_COEFFICIENTS)}"
         )
-    if not count_scale > 0:
+    if not 0 < count_scale < np.inf:
         raise ValueError(f"count_scale must be a positive number, got {count_scale!r}")
-    a = _as_1d_float(counts_1min, "counts_1min")
+    a = _as_counts(counts_1min, "counts_1min")
     missing = np.isnan(a)
     p, w = COLE_KRIPKE_COEFFICIENTS[coefficients]
     n = a.size
@@ -163,15 +129,17 @@ def cole_kripke_index(
     # 0·scale, as there), without the two temporaries.
     padded = np.zeros(_CK_BEFORE + n + _CK_AFTER)
     body = padded[_CK_BEFORE : _CK_BEFORE + n]
-    np.multiply(a, scale, out=body)
     any_missing = bool(missing.any())
-    if any_missing:
-        body[missing] = 0.0 * scale
-    # correlate: out[t] = Σ_j padded[t + j] · w[j] = Σ_k w_k · A[t + k], k = j − 4.
-    d = np.correlate(padded, np.asarray(w), mode="valid")
-    d *= p  # the products p·x, in place
+    with np.errstate(over="ignore", invalid="ignore"):  # D beyond float range: missing (below)
+        np.multiply(a, scale, out=body)
+        if any_missing:
+            body[missing] = 0.0 * scale
+        # correlate: out[t] = Σ_j padded[t + j] · w[j] = Σ_k w_k · A[t + k], k = j − 4.
+        d = np.correlate(padded, np.asarray(w), mode="valid")
+        d *= p  # the products p·x, in place
     if any_missing:
         d[missing] = np.nan
+    d[np.isinf(d)] = np.nan
     return d
 
 
@@ -309,7 +277,7 @@ def sadeh_terms(counts_1min: np.ndarray, *, cap: float = 300.0) -> dict[str, np.
     """
     if not cap > 0:
         raise ValueError(f"cap must be a positive number of counts, got {cap!r}")
-    a = _as_1d_float(counts_1min, "counts_1min")
+    a = _as_counts(counts_1min, "counts_1min")
     missing = np.isnan(a)
     x = np.where(missing, 0.0, np.minimum(a, float(cap)))
     ok = (~missing).astype(float)

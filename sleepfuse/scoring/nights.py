@@ -40,12 +40,13 @@ from .rhythm import RHYTHM_PARAMETERS, rest_activity_rhythm
 KEY_COLUMNS = ["participant", "night", "source"]
 WINDOW_COLUMNS = ["window_start", "window_end", "window_rule"]
 PARAMETER_COLUMNS = list(
-    dict.fromkeys([*COMMON_PARAMETERS, *STAGE_PARAMETERS, "unscored_min", "offwrist_min", "in_bed_min", "quality"])
+    dict.fromkeys([*COMMON_PARAMETERS, *STAGE_PARAMETERS, "unscored_min", "offwrist_min", "missing_min", "in_bed_min",
+                   "quality"])
 )
 NIGHT_COLUMNS = KEY_COLUMNS + WINDOW_COLUMNS + PARAMETER_COLUMNS + ["included", "qc"]
 SOURCE_PARAMETERS = {
     "psg": [*COMMON_PARAMETERS, *STAGE_PARAMETERS, "unscored_min"],
-    "actigraphy": [*COMMON_PARAMETERS, "offwrist_min"],
+    "actigraphy": [*COMMON_PARAMETERS, "offwrist_min", "missing_min"],
     "diary": list(DIARY_PARAMETERS),
 }
 
@@ -140,6 +141,37 @@ def _check_invalid(row: dict, params: dict, note: _Notes, config: StudyConfig) -
     if tib and tib > 0 and 100.0 * invalid / tib > config.scoring.max_invalid_pct:
         note("warning", f"{invalid:.0f} of {tib:.0f} min of the sleep opportunity are unscored or off-wrist "
                         f"(over {config.scoring.max_invalid_pct:g}%): night not included", exclude=True)
+
+
+def _gap_text(start: pd.Timestamp, codes: np.ndarray, limit: int = 3) -> str:
+    """'02:00-05:00 (180 min)' for each run of minutes without data (UNSCORED) in a window's codes;
+    ``start`` is the time of the window's first minute."""
+    missing = (codes == Stage.UNSCORED).view(np.int8)
+    edges = np.diff(missing, prepend=np.int8(0), append=np.int8(0))
+    starts, ends = np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)
+    parts = []
+    for a, b in zip(starts[:limit].tolist(), ends[:limit].tolist()):
+        t0, t1 = start + pd.Timedelta(minutes=a), start + pd.Timedelta(minutes=b)
+        parts.append(f"{t0:%Y-%m-%d %H:%M} to {t1:%H:%M}, {b - a} min")
+    more = f" and {starts.size - limit} more" if starts.size > limit else ""
+    return "; ".join(parts) + more
+
+
+def _check_missing(row: dict, window_start: pd.Timestamp, codes: np.ndarray, note: _Notes, config: StudyConfig) -> None:
+    """Minutes of the opportunity without data (a gap in the file, or outside the recording): named on
+    the row; more than ``[scoring] max_missing_pct`` of the opportunity excludes the night."""
+    missing, tib = row["missing_min"], row["tib_min"]
+    if not missing or not tib or tib <= 0 or math.isnan(missing):
+        return
+    where = _gap_text(window_start, codes)
+    limit = config.scoring.max_missing_pct
+    pct = 100.0 * missing / tib
+    if pct > limit:
+        note("warning", f"no data for {missing:.0f} of {tib:.0f} min of the sleep opportunity ({where}; {pct:.0f}%, "
+                        f"over [scoring] max_missing_pct = {limit:g}%): night not included", exclude=True)
+    else:
+        note("warning", f"no data for {missing:.0f} of {tib:.0f} min of the sleep opportunity ({where}); "
+                        "these minutes are neither sleep nor wake")
 
 
 def _rel(path: Path, config: StudyConfig) -> str:
@@ -262,9 +294,12 @@ def score_actigraphy_windows(
         if outside > 0:
             note("warning", f"{outside:.0f} min of the sleep opportunity lie outside the recording (counted unscored)")
         p = next(params)
-        exact_times(p, window, *edge_minutes(scoring.start, 60.0, window))
+        head, tail = edge_minutes(scoring.start, 60.0, window)
+        exact_times(p, window, head, tail)
+        p["missing_min"] = p["unscored_min"]  # actigraphy's unscored minutes are the minutes without data
         for key in keys:
             row[key] = p[key]
+        _check_missing(row, window.start + pd.Timedelta(minutes=head), cuts[k][0], note, config)
         _check_invalid(row, p, note, config)
         out.rows.append(row)
 

@@ -155,7 +155,8 @@ def read_actigraphy_file(config: StudyConfig, path: Path) -> ActigraphyRecord:
     from sleepfuse.readers.actigraphy import read_actigraphy
 
     return read_actigraphy(path, config.timezone, columns=config.actigraphy.columns,
-                           date_order=config.study.date_order)
+                           date_order=config.study.date_order,
+                           max_count_per_min=config.actigraphy.max_count_per_min)
 
 
 def read_diary_file(config: StudyConfig, path: Path, participant: str | None):
