@@ -116,7 +116,11 @@ def test_clock_time_inside_the_spring_forward_gap_is_noted(tmp_path):
 def test_missing_columns_and_blank_cells_are_none(tmp_path):
     path = write(tmp_path / "P01_diary.csv", "2026-04-10,23:00,", "2026-04-11,,", header="night,tried_to_sleep,quality")
     diary = read_diary(path, "UTC", participant="P01")
-    assert diary.problems == []
+    # the absent expected columns are reported once for the file (issue 12 item 3), the blank cells are not
+    (problem,) = diary.problems
+    for name in ("bedtime", "sol_min", "nwak", "waso_min", "final_awakening", "out_of_bed"):
+        assert f"expected column {name!r} is missing" in problem.message
+    assert "'quality'" not in problem.message and "'tried_to_sleep'" not in problem.message
     first, second = diary.entries
     assert first.tried_to_sleep == pd.Timestamp("2026-04-10T23:00", tz="UTC")
     assert first.quality is None and first.bedtime is None and first.sol_min is None

@@ -108,6 +108,7 @@ class DiaryEntry:
     nwak: float | None = None
     waso_min: float | None = None
     quality: float | None = None
+    file: str = ""  # the diary file, relative to the study folder (set where the file is read), for QC lines
 
 
 @dataclass

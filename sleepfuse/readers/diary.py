@@ -23,6 +23,7 @@ from sleepfuse.model.clock import GAP, REPEAT, localize, place_clock, place_wall
 from ._stamps import parse_clock
 from ._csvtext import missing_column_message
 from ._diary_table import TIME_KEYS, diary_table
+from ._diarycolumns import column_problems
 from ._dialect import MISSING
 
 DIARY_DEFAULT_COLUMNS = {k: k for k in DIARY_COLUMN_KEYS}
@@ -74,10 +75,7 @@ def read_diary(
             + repr(names["participant"])
             + " column and its name gives no participant ID; add the column or name the file <participant>_diary.csv",
         )
-    if columns:
-        for key in columns:
-            if key in col and col[key] is None and key != "night":
-                problems.append(Problem("warning", f"column {names[key]!r} (for {key}, set in study.toml) is not in the file"))
+    problems += column_problems(header, names, col)  # unknown and missing expected columns, once per file
     if len(records) == 0:
         raise ReadError(path, "the file has a header but no diary rows")
 

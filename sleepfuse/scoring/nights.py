@@ -304,11 +304,15 @@ def score_actigraphy_windows(
         out.rows.append(row)
 
 
+_TST_INPUTS = (("final_awakening", "final awakening"), ("sol_min", "sleep onset latency"), ("waso_min", "WASO"))
+
+
 def score_diary_entry(config: StudyConfig, participant: str, entry: DiaryEntry, qc: QCLog, out: ScoredParticipant,
-                      file: str = "") -> DiaryEntry | None:
-    """Diary parameters of one row; returns the entry if usable, None if rejected."""
+                      file: str | None = None) -> DiaryEntry | None:
+    """Diary parameters of one row; returns the entry if usable, None if rejected. QC lines name
+    ``file``, by default the entry's own file."""
     row = _row(participant, entry.night, "diary")
-    note = _Notes(qc, row, file)
+    note = _Notes(qc, row, entry.file if file is None else file)
     try:
         params = diary_parameters(entry)
     except DiaryRowRejected as exc:
@@ -318,6 +322,10 @@ def score_diary_entry(config: StudyConfig, participant: str, entry: DiaryEntry, 
     for k in SOURCE_PARAMETERS["diary"]:
         row[k] = params[k]
     w = diary_window(entry)
+    absent = [label for key, label in _TST_INPUTS if getattr(entry, key) is None]
+    if absent and w is not None:
+        note("warning", f"no {', no '.join(absent)} (blank, or its column is missing from the file): TST, SE "
+                        "cannot be computed: night not included", exclude=True)
     if w is not None:
         _set_window(row, w)
         out.windows[(row["night"], "diary")] = w

@@ -191,6 +191,8 @@ def load_participant(
                 qc.error(f"{label} file not read: {exc.reason}", file=rel, participant=participant)
                 continue
             _report_problems(qc, record.problems, file=rel, participant=participant)
+            for entry in getattr(record, "entries", ()):  # diary rows name their file in every later QC line
+                entry.file = rel
             if getattr(record, "sha256", ""):
                 rec.digests[path] = record.sha256
             keep(record)
@@ -219,8 +221,9 @@ def _check_duplicate_nights(rec: ParticipantRecords, qc: QCLog, config: StudyCon
     for e in rec.diary:
         if e.night in seen_d:
             qc.error(
-                f"second diary row for night {e.night} (line {e.line}); the first (line {seen_d[e.night].line}) is kept",
-                participant=rec.participant, night=e.night,
+                f"second diary row for night {e.night} (line {e.line}); the first (line {seen_d[e.night].line}"
+                f"{'' if seen_d[e.night].file == e.file else ' of ' + seen_d[e.night].file}) is kept",
+                file=e.file, participant=rec.participant, night=e.night,
             )
             continue
         seen_d[e.night] = e
@@ -241,6 +244,7 @@ def read_combined_diaries(config: StudyConfig, paths: Iterable[Path], qc: QCLog)
             continue
         _report_problems(qc, d.problems, file=rel, participant="")
         for e in d.entries:
+            e.file = rel
             if allowed and e.participant not in allowed:
                 qc.error(f"participant {e.participant!r} (line {e.line}) is not in [study] participants; row skipped",
                          file=rel, participant=e.participant, night=e.night)
