@@ -151,7 +151,8 @@ def methods(provenance: dict, agreement=None, level: str = "95%") -> dict:
         f"PSG was scored in {number_text(psg.get('epoch_s', 30), 0)}-s epochs. Latency to persistent sleep "
         f"required {number_text(scoring.get('lps_run_min', 10), 0)} min of uninterrupted sleep; "
         + _bouts(scoring.get("min_wake_bout_min", 0)) + "; a night whose sleep opportunity was more than "
-        f"{number_text(scoring.get('max_invalid_pct', 50), 0)}% unscored or off-wrist was not included. WASO "
+        f"{number_text(scoring.get('max_invalid_pct', 50), 0)}% unscored or off-wrist, or (actigraphy) more than "
+        f"{number_text(scoring.get('max_missing_pct', 10), 0)}% without data, was not included. WASO "
         "excludes the terminal wake after the final awakening, as the consensus diary does; the AASM WASO is WASO "
         "plus terminal wake.")
     text, refs = _actigraphy(algorithm, act)
