@@ -130,6 +130,16 @@ def test_epoch_length_change_30_to_15_names_the_first_line_of_the_new_length(tmp
         read_actigraphy(path, TZ)
 
 
+def test_epoch_length_change_to_a_length_not_allowed_is_reported_too(tmp_path):
+    a = pd.date_range("2026-05-01 12:00", periods=1000, freq="60s")  # lines 2-1001
+    b = pd.date_range(a[-1] + pd.Timedelta(seconds=120), periods=300, freq="120s")  # lines 1002-1301
+    lines = ["timestamp,counts"] + [f"{x:%Y-%m-%dT%H:%M:%S},5" for x in a.append(b)]
+    path = tmp_path / "a.csv"
+    path.write_text("\n".join(lines) + "\n")
+    with pytest.raises(ReadError, match="epoch length changes from 60 s to 120 s at line 1002"):
+        read_actigraphy(path, TZ)
+
+
 def test_a_few_odd_steps_are_no_epoch_change(tmp_path):
     t = pd.date_range("2026-05-01 12:00", periods=600, freq="30s")
     t = t.delete([100, 300, 302])  # three single missing rows: 60-s steps, not a new epoch length

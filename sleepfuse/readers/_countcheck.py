@@ -42,24 +42,27 @@ def implausible_counts(path: Path, counts: np.ndarray, lines: np.ndarray, epoch_
     return np.where(bad, np.nan, counts), [Problem("warning", msg)]
 
 
-def epoch_change(path: Path, allowed: tuple[int, ...], steps_s: np.ndarray, lines: np.ndarray, epoch: int) -> None:
-    """Reject a file whose epoch length changes part-way: a run of EPOCH_CHANGE_RUN or more steps of
-    another allowed epoch length (a single odd step is a gap or a jitter, not a change)."""
-    for other in allowed:
-        if other == epoch:
-            continue
-        hit = steps_s == other
-        if np.count_nonzero(hit) < EPOCH_CHANGE_RUN:
-            continue
-        edges = np.diff(hit.view(np.int8), prepend=np.int8(0), append=np.int8(0))
-        starts, ends = np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)
-        long = np.flatnonzero(ends - starts >= EPOCH_CHANGE_RUN)
-        if long.size:
-            i = int(starts[long[0]])  # step i goes from row i to row i + 1: row i + 1 is the first of the new length
-            line = int(lines[i + 1])
-            raise ReadError(
-                path,
-                f"epoch length changes from {epoch} s to {other} s at line {line} "
-                f"({int(ends[long[0]]) - i} steps of {other} s from there); sleepfuse reads one epoch length "
-                f"per file: split the file before line {line} or export it again with one epoch length",
-            )
+def epoch_change(path: Path, steps_s: np.ndarray, lines: np.ndarray, epoch: int) -> None:
+    """Reject a file whose epoch length changes part-way: a run of EPOCH_CHANGE_RUN or more equal steps
+    between timestamps of another length (a single odd step is a gap or a jitter, not a change).
+
+    ``steps_s``: seconds from each row to the next; ``lines``: the rows' file lines; ``epoch``: the
+    file's (most common) epoch length.
+    """
+    if steps_s.size < EPOCH_CHANGE_RUN:
+        return
+    change = np.flatnonzero(steps_s[1:] != steps_s[:-1]) + 1
+    starts = np.concatenate(([0], change))
+    lengths = np.diff(np.concatenate((starts, [steps_s.size])))
+    values = steps_s[starts]
+    odd = np.flatnonzero((lengths >= EPOCH_CHANGE_RUN) & (values > 0) & (values != epoch))
+    if odd.size:
+        r = odd[0]
+        i, other = int(starts[r]), int(values[r])  # step i goes from row i to row i + 1
+        line = int(lines[i + 1])
+        raise ReadError(
+            path,
+            f"epoch length changes from {epoch} s to {other} s at line {line} ({int(lengths[r])} steps of "
+            f"{other} s from there); sleepfuse reads one epoch length per file: split the file before line "
+            f"{line} or export it again with one epoch length",
+        )

@@ -226,7 +226,7 @@ def _infer_epoch(path: Path, instants: np.ndarray, lines: np.ndarray) -> int:
         values, freq = np.unique(seconds, return_counts=True)
         epoch = int(values[np.argmax(freq)])
         if epoch in ALLOWED_EPOCHS_S:
-            epoch_change(path, ALLOWED_EPOCHS_S, np.round(np.diff(instants) / _US).astype(np.int64), lines, epoch)
+            epoch_change(path, np.round(np.diff(instants) / _US).astype(np.int64), lines, epoch)
     if epoch not in ALLOWED_EPOCHS_S:
         raise ReadError(
             path,
