@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import os
 import sqlite3
 import sys
 import time
@@ -143,6 +144,12 @@ def cacheable(outcome: "ParticipantOutcome") -> bool:
     return not any(e.severity == "error" and e.message.startswith("participant not processed") for e in outcome.qc)
 
 
+def _why(exc: BaseException) -> str:
+    """A short reason for a QC note (never a file's content)."""
+    text = str(exc).splitlines()[0] if str(exc) else ""
+    return f"{type(exc).__name__}: {text[:80]}" if text else type(exc).__name__
+
+
 class CacheUnavailable(Exception):
     """The cache cannot be opened or written (read-only study folder, locked file...)."""
 
@@ -158,30 +165,58 @@ class OutcomeCache:
 
     @classmethod
     def open(cls, study_root: str | Path) -> "OutcomeCache":
-        """Open (or create) the study's cache; a damaged file is moved aside and a new one started."""
+        """Open (or create) the study's cache; a file that cannot be opened or read is set aside
+        (renamed, never deleted) and a new one started."""
         folder = Path(study_root) / CACHE_DIR
         path = folder / CACHE_FILE
         try:
             folder.mkdir(exist_ok=True)
         except OSError as exc:
             raise CacheUnavailable(f"cannot create {folder} ({exc.strerror or exc})") from None
+        if not os.access(folder, os.W_OK):  # read-only study folder: not the file's fault
+            raise CacheUnavailable(f"cannot write in {folder}")
         notes = []
         try:
             conn = cls._connect(path)
-        except sqlite3.OperationalError as exc:  # read-only, locked, no space: not the file's fault
-            raise CacheUnavailable(f"cannot open {path} ({exc})") from None
-        except sqlite3.DatabaseError as exc:
-            # Not a database any more (a damaged or overwritten file): keep it for inspection, start afresh.
-            aside = path.with_name(f"{CACHE_FILE}.damaged-{time.strftime('%Y%m%dT%H%M%S')}")
+        except Exception as exc:  # damaged, overwritten, undecodable text...: keep it, start afresh
+            if isinstance(exc, sqlite3.OperationalError) and "locked" in str(exc):
+                raise CacheUnavailable(f"cannot open {path} ({exc})") from None  # another run holds it
+            aside = cls._set_aside(path)
             try:
-                path.replace(aside)
                 conn = cls._connect(path)
-            except (OSError, sqlite3.DatabaseError) as exc2:
-                raise CacheUnavailable(f"the cache file {path} is damaged and cannot be replaced ({exc2})") from None
-            notes.append(f"cache file was damaged ({exc}); moved to {aside.name} and every participant recomputed")
+            except Exception as exc2:
+                raise CacheUnavailable(f"the cache file {path} cannot be opened or replaced ({_why(exc2)})") from None
+            notes.append(f"cache file could not be read ({_why(exc)}); moved to {aside.name} "
+                         f"and every participant recomputed")
         cache = cls(path, conn)
         cache.notes += notes
         return cache
+
+    @staticmethod
+    def _set_aside(path: Path) -> Path:
+        """Rename a damaged cache file (and its journal) out of the way; raises CacheUnavailable if impossible."""
+        aside = path.with_name(f"{CACHE_FILE}.damaged-{time.strftime('%Y%m%dT%H%M%S')}-{os.getpid()}")
+        try:
+            if path.exists():
+                path.replace(aside)
+            for suffix in ("-journal", "-wal", "-shm"):
+                extra = path.with_name(path.name + suffix)
+                if extra.exists():
+                    extra.replace(aside.with_name(aside.name + suffix))
+        except OSError as exc:
+            raise CacheUnavailable(f"the cache file {path} is damaged and cannot be set aside ({exc})") from None
+        return aside
+
+    def _reset(self, exc: BaseException) -> None:
+        """The open file failed while being read: set it aside and continue with a new, empty one."""
+        try:
+            self._conn.close()
+        except Exception:
+            pass
+        aside = self._set_aside(self.path)
+        self._conn = self._connect(self.path)
+        self.notes.append(f"cache file could not be read ({_why(exc)}); moved to {aside.name} "
+                          f"and the participants in it recomputed")
 
     @staticmethod
     def _connect(path: Path) -> sqlite3.Connection:
@@ -205,24 +240,27 @@ class OutcomeCache:
         return conn
 
     def get(self, participant: str, key: str) -> "tuple[ParticipantOutcome | None, str]":
-        """The stored outcome if its key and checksum match; else (None, why) with why '' for a plain miss."""
+        """The stored outcome if its key and checksum match; else (None, why) with why '' for a plain miss.
+
+        A store that cannot be read at all is set aside and replaced by an empty one (a note in ``notes``)."""
         try:
             row = self._conn.execute(
                 "SELECT key, checksum, blob FROM outcomes WHERE participant = ?", (participant,)
             ).fetchone()
-        except sqlite3.DatabaseError as exc:
-            return None, f"cache entry unreadable ({exc}); recomputed"
-        if row is None:
-            return None, ""
-        stored_key, checksum, blob = row
-        if stored_key != key:
-            return None, ""  # inputs, configuration or versions changed: stale, recompute
-        blob = bytes(blob)
+            if row is None:
+                return None, ""
+            stored_key, checksum, blob = row
+            if stored_key != key:
+                return None, ""  # inputs, configuration or versions changed: stale, recompute
+            blob = bytes(blob)
+        except Exception as exc:  # damaged pages, undecodable text
+            self._reset(exc)
+            return None, f"cache unreadable ({_why(exc)}); recomputed"
         if hashlib.sha256(blob).hexdigest() != checksum:
             return None, "cache entry damaged (checksum mismatch); recomputed"
         try:
             outcome = decode_outcome(blob)
-        except (ValueError, KeyError, TypeError) as exc:
+        except Exception as exc:
             return None, f"cache entry unreadable ({type(exc).__name__}); recomputed"
         if outcome.participant != participant:
             return None, "cache entry belongs to another participant; recomputed"
@@ -243,7 +281,8 @@ class OutcomeCache:
         """Participants with a stored entry (whether or not it is still valid)."""
         try:
             return {row[0] for row in self._conn.execute("SELECT participant FROM outcomes")}
-        except sqlite3.DatabaseError:
+        except Exception as exc:  # damaged pages, undecodable text: set the file aside, nothing is stored
+            self._reset(exc)
             return set()
 
     def commit(self) -> None:
@@ -296,8 +335,6 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", qc: QCLog,
         inputs[k] = found
 
     report.used, report.path = True, rel_path(config, cache.path)
-    for note in cache.notes:
-        qc.info(note, file=report.path)
     cfg, libs = config_fingerprint(config), library_versions()
     keys: list[str | None] = []
     hits: list = []
@@ -318,6 +355,8 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", qc: QCLog,
         else:
             found.inputs = inputs[k]
             hits.append(found)
+    for note in cache.notes:  # the store set aside on opening or while reading it
+        qc.warning(note, file=report.path)
     if progress and hits:
         progress("", len(hits), len(jobs))
 

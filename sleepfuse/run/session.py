@@ -89,7 +89,7 @@ class StudyLoader:
 
     def score(self, participants: list[str]) -> pd.DataFrame:
         """Score these participants; returns their night rows with review decisions applied."""
-        from sleepfuse.run.cache import CacheUnavailable, OutcomeCache, cacheable, config_fingerprint, library_versions, participant_key
+        from sleepfuse.run.cache import CACHE_DIR, CACHE_FILE, CacheUnavailable, OutcomeCache, cacheable, config_fingerprint, library_versions, participant_key
 
         cache = None
         if self.use_cache:
@@ -126,13 +126,22 @@ class StudyLoader:
                 if cache is not None and key is not None:
                     outcome = ParticipantOutcome(pid, scored.rows, scored.rhythm, erows, local.entries)
                     if cacheable(outcome):
-                        cache.put(key, outcome)
+                        try:
+                            cache.put(key, outcome)
+                        except Exception:  # a full disk or locked file costs the cache, never the session
+                            cache = None
                 self.epoch_rows += erows
                 self.qc.extend(local.entries)
                 chunk.append(scored)
         finally:
             if cache is not None:
-                cache.close()
+                for note in cache.notes:  # a damaged store was set aside and a new one started
+                    self.qc.warning(note, file=str(Path(CACHE_DIR) / CACHE_FILE))
+                cache.notes.clear()
+                try:
+                    cache.close()
+                except Exception as exc:  # the cache is never worth the session
+                    self.qc.info(f"incremental cache could not be updated ({type(exc).__name__})")
         self.scored += chunk
         return apply_decisions(night_table(chunk), self.decisions)
 
