@@ -14,6 +14,7 @@ from pathlib import Path
 from typing import Any
 
 from sleepfuse.model.errors import ConfigError
+from sleepfuse.model.patterns import MAX_STEM, glob_problem, regex_problem
 from sleepfuse.model.clock import machine_timezone, zone
 
 LOA_CI_CHOICES = ("exact", "approximate")  # as sleepfuse/fusion/limits.py
@@ -135,7 +136,7 @@ class StudyConfig:
 
     def participant_of(self, path: Path) -> str | None:
         """Participant ID from a file name: the part before the first '_', or the regex group."""
-        stem = path.stem
+        stem = path.stem[:MAX_STEM]  # bounded: matching time never grows with a pathological name
         if self.study.participant_pattern:
             m = re.search(self.study.participant_pattern, stem)
             if not m:
@@ -231,10 +232,13 @@ def build_config(root: str | Path, data: dict[str, Any] | None = None, source: P
     if not st.name:
         st.name = root.resolve().name
     if st.participant_pattern:
-        try:
-            re.compile(st.participant_pattern)
-        except re.error as exc:
-            _fail("study.participant_pattern", st.participant_pattern, f"a valid regular expression ({exc})", source)
+        problem = regex_problem(st.participant_pattern)
+        if problem:
+            _fail("study.participant_pattern", st.participant_pattern, problem, source)
+    for name, pattern in asdict(cfg.files).items():  # every [files] pattern: relative, inside the study
+        problem = glob_problem(pattern) if isinstance(pattern, str) else None
+        if problem:
+            _fail(f"files.{name}", pattern, problem, source)
 
     if st.date_order:
         _choice("study.date_order", st.date_order, DATE_ORDERS, source)

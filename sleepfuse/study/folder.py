@@ -70,11 +70,11 @@ def discover(config: StudyConfig, qc: QCLog) -> StudyFiles:
     all_files: list[Path] = []
     allowed = set(config.study.participants)
     for source, pattern in patterns.items():
-        for path in _matching(root, source, pattern):
-            if not path.is_file():
+        for path in _matches(root, source, pattern, qc):
+            rel = _rel(path, root)
+            if not _readable_input(path, root, rel, qc):
                 continue
             all_files.append(path)
-            rel = _rel(path, root)
             participant = config.participant_of(path)
             if source == "diary" and (participant is None or ("_" not in path.stem and not config.study.participant_pattern)):
                 combined.append(path)
@@ -85,6 +85,11 @@ def discover(config: StudyConfig, qc: QCLog) -> StudyFiles:
                     f"{' matching ' + repr(config.study.participant_pattern) if config.study.participant_pattern else ''}",
                     file=rel,
                 )
+                continue
+            unsafe = unsafe_id(participant)
+            if unsafe:
+                qc.error(f"participant ID from the file name {unsafe}; file skipped (rename the file)",
+                         file=safe_cell(rel))
                 continue
             if allowed and participant not in allowed:
                 qc.error(
@@ -117,6 +122,56 @@ def _matching(root: Path, source: str, pattern: str) -> list[Path]:
         return sorted(root.glob(pattern))
     return sorted(p for p in root.glob(f"{source}/*") if p.suffix.lower() in KNOWN_SUFFIXES[source]
                   and not p.name.startswith((".", "~$")))
+
+
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")  # a spreadsheet runs a cell starting so as a formula (OWASP CSV injection)
+
+
+def unsafe_id(participant: str) -> str | None:
+    """Why a participant ID cannot be written into a table, or None: IDs never start a formula."""
+    if participant.startswith(FORMULA_START):
+        return (f"starts with {participant[:1]!r}, which a spreadsheet would run as a formula "
+                f"(IDs must not begin with =, +, -, @, a tab or a carriage return)")
+    return None
+
+
+def safe_cell(text: str) -> str:
+    """A file name for a QC line that never starts a formula (a leading './')."""
+    return f"./{text}" if text.startswith(FORMULA_START) else text
+
+
+def _matches(root: Path, source: str, pattern: str, qc: QCLog) -> list[Path]:
+    """The paths a [files] pattern matches (any kind of entry); a pattern glob cannot use is a QC error."""
+    try:
+        return _matching(root, source, pattern)
+    except (NotImplementedError, ValueError, OSError) as exc:  # checked at load; a config built in code may not be
+        qc.error(f"file pattern {pattern!r} cannot be used ({exc}); give a pattern relative to the study folder",
+                 file="study.toml")
+        return []
+
+
+def _readable_input(path: Path, root: Path, rel: str, qc: QCLog) -> bool:
+    """True for a regular file (possibly through a link); every other match gets a QC line and is skipped."""
+    try:
+        if path.is_symlink() and not path.exists():
+            qc.error("broken link: the file it points to does not exist; skipped", file=safe_cell(rel))
+            return False
+        if path.is_dir():
+            qc.warning("a folder, not a file, matches the file pattern; skipped", file=safe_cell(rel))
+            return False
+        if not path.is_file():  # never opened: a pipe would block, a device never ends
+            qc.error("not a regular file (a pipe, socket or device); skipped", file=safe_cell(rel))
+            return False
+        target = path.resolve()
+    except OSError as exc:
+        qc.error(f"cannot be examined ({exc.strerror or type(exc).__name__}); skipped", file=safe_cell(rel))
+        return False
+    try:
+        target.relative_to(root.resolve())
+    except ValueError:
+        qc.warning("read through a link that leads outside the study folder; the study is not self-contained",
+                   file=safe_cell(rel))
+    return True
 
 
 def _rel(path: Path, root: Path) -> str:
@@ -245,6 +300,10 @@ def read_combined_diaries(config: StudyConfig, paths: Iterable[Path], qc: QCLog)
         _report_problems(qc, d.problems, file=rel, participant="")
         for e in d.entries:
             e.file = rel
+            unsafe = unsafe_id(e.participant)
+            if unsafe:
+                qc.error(f"participant ID in line {e.line} {unsafe}; row skipped", file=safe_cell(rel), night=e.night)
+                continue
             if allowed and e.participant not in allowed:
                 qc.error(f"participant {e.participant!r} (line {e.line}) is not in [study] participants; row skipped",
                          file=rel, participant=e.participant, night=e.night)
