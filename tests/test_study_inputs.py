@@ -173,3 +173,14 @@ def test_formula_ids_in_a_combined_diary_are_refused(study, tmp_path):
     frame = qc.to_frame()
     lines = frame[(frame.file == "diary/diary.csv") & frame.message.str.contains("formula")]
     assert len(lines) == 1 and "line 2" in lines.message.iloc[0]
+
+
+@pytest.mark.parametrize("pattern, refused", [
+    (r"^(P\d+)", False), (r"(?:[A-Z]\d)+", False), (r"^(?P<participant>[A-Z]{1,3}\d{2,4})_", False),
+    (r"sub-(\d+)_(\d+)", False), (r"([+*])+", False), (r"(?i)^(p\d+)", False), (r"[(]+(a)", False),
+    (r"((ab)?)+", True), (r"(x{1,3})+", True), (r"(\(a+\))+", True), (r"(?:(?:a+))+", True), (r"(a+?)+", True),
+])
+def test_pattern_check_tells_nested_repeats_from_ordinary_ones(pattern, refused):
+    from sleepfuse.model.patterns import regex_problem
+
+    assert bool(regex_problem(pattern)) is refused

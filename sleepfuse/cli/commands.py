@@ -128,6 +128,10 @@ def run_batch_command(args: argparse.Namespace) -> int:
     except DaskUnavailable as exc:
         print(f"sleepfuse: {exc}", file=sys.stderr)
         return 2
+    except KeyboardInterrupt as exc:
+        if str(exc):  # interrupted while writing: the message says what is left
+            raise
+        raise KeyboardInterrupt(f"interrupted before writing; nothing of this run was written to {args.out}") from None
     qc = result.tables["qc"]
     errors, warnings = qc[qc["severity"] == "error"], qc[qc["severity"] == "warning"]
     shown = pd.concat([errors, warnings.head(CONSOLE_WARNINGS)])
@@ -137,6 +141,8 @@ def run_batch_command(args: argparse.Namespace) -> int:
     if len(warnings) > CONSOLE_WARNINGS:
         print(f"... and {len(warnings) - CONSOLE_WARNINGS} more warnings: see qc.{args.format} in {args.out}",
               file=sys.stderr)
+    for note in result.notes:  # temporary, stale and foreign files in the output folder
+        print(f"note: {note}", file=sys.stderr)
     print(f"QC log: {qc_summary(result.tables['qc']['severity'])}", file=sys.stderr)
     print(f"{result.n_participants} participants ({result.n_recomputed} computed, {result.n_from_cache} from cache), "
           f"{instrument_nights(result.tables['nights'])} included; wrote {len(result.written)} files to {args.out}",

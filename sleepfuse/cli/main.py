@@ -12,7 +12,7 @@ import sys
 
 from sleepfuse import RESEARCH_CAUTION, __version__
 from sleepfuse.cli.args import EXIT_NOTHING, EXIT_OK, EXIT_USAGE, study_dir
-from sleepfuse.model.errors import ConfigError
+from sleepfuse.model.errors import ConfigError, OutputFolderError
 
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
@@ -81,8 +81,13 @@ def main(argv: list[str] | None = None) -> int:
     except ConfigError as exc:
         print(f"sleepfuse: configuration error: {exc}", file=sys.stderr)
         return EXIT_USAGE
-    except KeyboardInterrupt:
-        print("sleepfuse: interrupted; no partial output was left behind", file=sys.stderr)
+    except OutputFolderError as exc:
+        print(f"sleepfuse: {exc}", file=sys.stderr)
+        return EXIT_USAGE
+    except KeyboardInterrupt as exc:
+        said = str(exc)  # batch says exactly what it left (sleepfuse.run.batch.BatchInterrupted)
+        print(f"sleepfuse: {said or 'interrupted; files finished before stay in place, no half-written file is left'}",
+              file=sys.stderr)
         return 130
 
 

@@ -28,3 +28,7 @@ class ConfigError(SleepfuseError):
         self.path = Path(path) if path is not None else None
         where = f"{self.path}: " if self.path is not None else ""
         super().__init__(f"{where}{key} = {value!r} is not valid; allowed: {allowed}")
+
+
+class OutputFolderError(SleepfuseError):
+    """The output folder cannot be used (an existing file, not writable, inside the study)."""

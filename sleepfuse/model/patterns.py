@@ -18,53 +18,91 @@ from __future__ import annotations
 import re
 from pathlib import PurePosixPath, PureWindowsPath
 
-try:  # Python 3.11+: the parser of the standard library's own regular expressions
-    import re._parser as _sre_parse  # type: ignore[import-not-found]
-    import re._constants as _sre_constants  # type: ignore[import-not-found]
-except ImportError:  # pragma: no cover - older layouts
-    import sre_constants as _sre_constants  # type: ignore[no-redef]
-    import sre_parse as _sre_parse  # type: ignore[no-redef]
 
 MAX_STEM = 255  # characters of a file-name stem given to participant_pattern
-
-_REPEATS = {_sre_constants.MAX_REPEAT, _sre_constants.MIN_REPEAT,
-            getattr(_sre_constants, "POSSESSIVE_REPEAT", None)} - {None}
+_COUNT = re.compile(r"\{\d*(,\d*)?\}")  # {n}, {n,}, {,m}, {n,m}
 
 
 def regex_problem(pattern: str) -> str | None:
     """Why ``pattern`` is refused as a participant pattern, or None when it is fine."""
     try:
-        parsed = _sre_parse.parse(pattern)
+        re.compile(pattern)
     except re.error as exc:
         return f"a valid regular expression ({exc})"
-    if _nested(parsed, inside_repeat=False):
-        return ("a regular expression without a repeat or alternation inside a repeat (such as (a+)+, "
-                "(a?){20} or (a|ab)*), "
-                "which can take practically forever to match; write e.g. ^([A-Za-z]+[0-9]+)_ instead")
+    if _nested_repeat(pattern):
+        return ("a regular expression without a repeat or alternation inside a repeated group (such as (a+)+, "
+                "(a?){20} or (a|ab)*), which can take practically forever to match; "
+                "write e.g. ^([A-Za-z]+[0-9]+)_ instead")
     return None
 
 
-def _nested(items, inside_repeat: bool) -> bool:
-    """True when a repeat (or an alternation) sits inside a repeat that can match more than once."""
-    for op, av in items:
-        if op in _REPEATS:
-            low, high, body = av
-            many = high is _sre_constants.MAXREPEAT or high > 1
-            if inside_repeat and (low, high) != (1, 1):  # any optional or repeated part inside a repeat
+def _quantifier_at(pattern: str, i: int) -> int:
+    """Length of the quantifier starting at ``i`` (with a lazy/possessive mark), 0 if there is none."""
+    if i >= len(pattern):
+        return 0
+    if pattern[i] in "*+?":
+        n = 1
+    else:
+        m = _COUNT.match(pattern, i)
+        if not m or m.group(0) == "{}" or m.group(0) == "{,}":
+            return 0
+        n = len(m.group(0))
+    if i + n < len(pattern) and pattern[i + n] in "?+":
+        n += 1
+    return n
+
+
+def _nested_repeat(pattern: str) -> bool:
+    """True when a repeated group holds a repeat or an alternation (a lexical scan of a valid pattern)."""
+    stack = [False]  # per open group: does it hold a repeat or an alternation?
+    i = 0
+    while i < len(pattern):
+        c = pattern[i]
+        if c == "\\":
+            i += 2
+        elif c == "[":  # a character class is one atom
+            j = i + 1
+            if j < len(pattern) and pattern[j] == "^":
+                j += 1
+            if j < len(pattern) and pattern[j] == "]":
+                j += 1
+            while j < len(pattern) and pattern[j] != "]":
+                j += 2 if pattern[j] == "\\" else 1
+            i = j + 1
+        elif c == "(":
+            i += 1
+            if pattern.startswith("?", i):  # group syntax, not a quantifier
+                if pattern.startswith("?P<", i):
+                    i = pattern.index(">", i) + 1
+                elif pattern.startswith("?P=", i):
+                    i = pattern.index(")", i)
+                elif pattern.startswith(("?<=", "?<!"), i):
+                    i += 3
+                else:
+                    i += 1
+                    while i < len(pattern) and pattern[i] not in ":=!)":
+                        i += 1
+                    if i < len(pattern) and pattern[i] in ":=!":
+                        i += 1
+            stack.append(False)
+        elif c == ")":
+            inner = stack.pop() if len(stack) > 1 else False
+            i += 1
+            n = _quantifier_at(pattern, i)
+            if n and inner:
                 return True
-            if _nested(body, inside_repeat or many):
-                return True
-        elif op is _sre_constants.BRANCH:
-            if inside_repeat:
-                return True
-            if any(_nested(branch, inside_repeat) for branch in av[1]):
-                return True
-        elif op is _sre_constants.SUBPATTERN:
-            if _nested(av[-1], inside_repeat):
-                return True
-        elif op in (_sre_constants.ASSERT, _sre_constants.ASSERT_NOT):
-            if _nested(av[1], inside_repeat):
-                return True
+            stack[-1] = stack[-1] or inner or bool(n)
+            i += n
+        elif c == "|":
+            stack[-1] = True
+            i += 1
+        else:
+            n = _quantifier_at(pattern, i)
+            if n:
+                stack[-1] = True
+                i += n
+            else:
+                i += 1
     return False
 
 

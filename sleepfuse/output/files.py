@@ -13,8 +13,12 @@ from typing import Iterable, Iterator
 
 
 @contextlib.contextmanager
-def atomic_path(path: str | Path, mode: int = 0o644) -> Iterator[Path]:
-    """Yield a temporary path beside ``path``; on success rename it over ``path``."""
+def atomic_path(path: str | Path, mode: int | None = None) -> Iterator[Path]:
+    """Yield a temporary path beside ``path``; on success rename it over ``path``.
+
+    The file gets the permissions a plain ``open(path, "w")`` would give it
+    (0666 less the process's umask), not mkstemp's private 0600, unless
+    ``mode`` is given."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
@@ -22,10 +26,25 @@ def atomic_path(path: str | Path, mode: int = 0o644) -> Iterator[Path]:
     tmp_path = Path(tmp)
     try:
         yield tmp_path
-        os.chmod(tmp_path, mode)
+        os.chmod(tmp_path, mode if mode is not None else 0o666 & ~current_umask())
         os.replace(tmp_path, path)
     finally:
         tmp_path.unlink(missing_ok=True)
+
+
+def current_umask() -> int:
+    """The process's umask, read without changing it where the system tells it (Linux /proc)."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("Umask:"):
+                    return int(line.split()[1], 8)
+    except (OSError, ValueError, IndexError):
+        pass
+    mask = os.umask(0o022)  # elsewhere: read by setting it, and put it back at once
+    os.umask(mask)
+    return mask
+
 
 
 def write_bytes(path: str | Path, data: bytes) -> Path:

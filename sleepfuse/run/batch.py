@@ -19,7 +19,7 @@ import json
 import math
 import platform
 import sys
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable
 
@@ -37,6 +37,8 @@ from sleepfuse.fusion.agreement import agreement_provenance
 from sleepfuse.fusion.epoch_table import epoch_table
 from sleepfuse.fusion.matrix import codebook, participant_matrix
 from sleepfuse.fusion.pairs import agreement_table
+from sleepfuse.run.outdir import (PROVENANCE, check_out, earlier_outputs, foreign_files, remove_leftover_temps,
+                                  remove_stale, what_is_left)
 from sleepfuse.run.engine import ParticipantOutcome, input_record, process_pool, rel_path
 from sleepfuse.run.participant import plan_jobs
 from sleepfuse.model.qc import QCLog
@@ -70,6 +72,7 @@ class BatchResult:
     n_scored_nights: int
     n_recomputed: int = 0
     n_from_cache: int = 0
+    notes: list[str] = field(default_factory=list)  # about the output folder (temporary, stale, foreign files)
 
 
 def build_tables(config: StudyConfig, outcomes: list[ParticipantOutcome], qc: QCLog, options: BatchOptions,
@@ -80,7 +83,7 @@ def build_tables(config: StudyConfig, outcomes: list[ParticipantOutcome], qc: QC
     scored = [ScoredParticipant(o.participant, rows=o.rows, rhythm=o.rhythm) for o in outcomes]
     for o in outcomes:
         qc.extend(o.qc)
-    nights = apply_decisions(night_table(scored), list(decisions))
+    nights = apply_decisions(night_table(scored), list(decisions), qc)
     rhythm = rhythm_table(scored)
     matrix = participant_matrix(nights, rhythm, min_nights=options.min_nights, zscore=options.zscore,
                                 participants=[o.participant for o in outcomes])
@@ -143,10 +146,11 @@ def run_batch(
     started = dt.datetime.now(dt.timezone.utc)
     tune_allocator()  # before the pool forks, so its workers inherit it
     config = config if config is not None else load_config(study)
-    qc = QCLog()
-    decisions = load_decisions(study)
-    jobs, files = plan_jobs(config, qc)
     out = Path(options.out)
+    check_out(out, Path(study))  # before any work: a wrong --out is said at once
+    qc = QCLog()
+    decisions = load_decisions(study, qc)
+    jobs, files = plan_jobs(config, qc)
     # The workers are gone before the tables are built: their memory is never held beside the tables'
     # (writing nights.csv in a worker meanwhile saved ~0.05 s but raised the peak by two idle workers).
     pool = process_pool(options.workers, options.scheduler, len(jobs))
@@ -158,10 +162,55 @@ def run_batch(
             pool.shutdown(wait=True)
     tables = build_tables(config, outcomes, qc, options, decisions)
     out.mkdir(parents=True, exist_ok=True)
+    notes = [f"removed {len(t)} temporary files an interrupted earlier run left" for t in [remove_leftover_temps(out)] if t]
+    earlier = earlier_outputs(out)
     # provenance.json marks a complete run: remove an older one first, so a run cut short
     # never leaves new tables beside an old run's provenance
-    (out / "provenance.json").unlink(missing_ok=True)
-    written = [write_table(tables[name], out / name, options.format) for name in OUTPUT_TABLES]
+    (out / PROVENANCE).unlink(missing_ok=True)
+    written: list[Path] = []
+    try:
+        provenance = _write_outputs(study, config, options, tables, outcomes, files, decisions, cache_report, qc, started,
+                       argv, step_progress, written)
+    except KeyboardInterrupt:
+        raise BatchInterrupted(out, _undo(written, out)) from None
+    stale = remove_stale(out, earlier, written)
+    if stale:
+        notes.append(f"removed {len(stale)} files an earlier run had written here and this run did not "
+                     f"({', '.join(stale[:5])}{', ...' if len(stale) > 5 else ''})")
+    foreign = foreign_files(out, written)
+    if foreign:
+        notes.append(f"{len(foreign)} files here were not written by this run and are left as they are: "
+                     f"{', '.join(foreign[:5])}{', ...' if len(foreign) > 5 else ''}")
+    nights = tables["nights"]
+    scored = int(nights["included"].sum()) if not nights.empty else 0
+    return BatchResult(tables, provenance, written, len(outcomes), scored, cache_report.recomputed,
+                       cache_report.from_cache, notes)
+
+
+class BatchInterrupted(KeyboardInterrupt):
+    """Ctrl-C while the outputs were being written: this run's files were removed; says what is left."""
+
+    def __init__(self, out: Path, left: list[str]):
+        self.out, self.left = out, left
+        where = (f"{out} still holds {', '.join(left[:8])}{', ...' if len(left) > 8 else ''} "
+                 f"(not a complete run: no provenance.json)") if left else f"{out} holds no output"
+        super().__init__(f"interrupted while writing; the files this run had written were removed; {where}")
+
+
+def _undo(written: list[Path], out: Path) -> list[str]:
+    """Remove this run's files after an interruption; returns what is left in ``out``."""
+    for path in written:
+        Path(path).unlink(missing_ok=True)
+    remove_leftover_temps(out)
+    return what_is_left(out)
+
+
+def _write_outputs(study, config, options, tables, outcomes, files, decisions, cache_report, qc, started,
+                   argv, step_progress, written: list[Path]) -> dict:
+    """Every output file, provenance.json last; ``written`` grows as each file is in place."""
+    out = Path(options.out)
+    for name in OUTPUT_TABLES:
+        written.append(write_table(tables[name], out / name, options.format))
     inputs = [i for o in outcomes for i in o.inputs]
     seen = {i["file"] for i in inputs}
     inputs += [input_record(config, p, "diary") for p in files if rel_path(config, p) not in seen]
@@ -193,7 +242,7 @@ def run_batch(
         "review_decisions": {"file": REVIEW_FILE if decisions else None,
                              "decisions": [vars(d) for d in decisions]},
         "inputs": sorted(inputs, key=lambda i: i["file"]),
-        "outputs": [p.name for p in written],
+        "outputs": [p.relative_to(out).as_posix() for p in written],
         "counts": {
             "participants": len(outcomes),
             "participants_recomputed": cache_report.recomputed,
@@ -214,6 +263,4 @@ def run_batch(
                                     progress=step_progress("report") if step_progress else None, svgs=svgs))
     write_text(prov_path, json.dumps(provenance, indent=2, default=_json_default, allow_nan=False) + "\n")
     written.append(prov_path)
-    scored = int(nights["included"].sum()) if not nights.empty else 0
-    return BatchResult(tables, provenance, written, len(outcomes), scored, cache_report.recomputed,
-                       cache_report.from_cache)
+    return provenance

@@ -72,7 +72,7 @@ def assemble(config: StudyConfig, scored: Iterable[ScoredParticipant], qc: QCLog
     scored = list(scored)
     return StudyResult(
         config=config,
-        nights=apply_decisions(night_table(scored), load_decisions(config.root)),
+        nights=apply_decisions(night_table(scored), load_decisions(config.root, qc), qc),
         rhythm=rhythm_table(scored),
         qc=qc,
         participants={s.participant: s for s in scored} if keep_detail else {},

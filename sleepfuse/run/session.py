@@ -171,8 +171,8 @@ class Workspace:
             self._detail[s.participant] = s
         self.base_nights = night_table(scored)  # before review decisions
         self.rhythm = rhythm_table(scored)  # IS, IV, M10, L5, RA per participant (cached participants too)
+        self.refresh(qc)  # the review file's problems are reported once, when the study opens
         self._problems = self._count_problems(qc.entries)
-        self.refresh()
 
     @classmethod
     def from_result(cls, root: str | Path, result: StudyResult) -> "Workspace":
@@ -190,11 +190,11 @@ class Workspace:
         return loader.finish()
 
     # --- tables -----------------------------------------------------------------
-    def refresh(self) -> None:
-        """Re-read the review file and recompute the night table and agreement."""
+    def refresh(self, qc: QCLog | None = None) -> None:
+        """Re-read the review file and recompute the night table and agreement (problems reported to ``qc``)."""
         self.version = getattr(self, "version", -1) + 1  # screens redraw when it changes
-        self.decisions = load_decisions(self.root)
-        self.nights = apply_decisions(self.base_nights, self.decisions)
+        self.decisions = load_decisions(self.root, qc)
+        self.nights = apply_decisions(self.base_nights, self.decisions, qc)
         self.agreement = agreement_table(self.nights, **self.config.agreement.table_options())
         self._index = {(p, n, s): i for i, (p, n, s) in
                        enumerate(zip(self.nights["participant"], self.nights["night"], self.nights["source"]))} \

@@ -19,7 +19,7 @@ from pathlib import Path
 import pandas as pd
 
 from sleepfuse.output.files import write_text
-from sleepfuse.model.errors import ConfigError
+from sleepfuse.model.qc import QCLog
 
 REVIEW_FILE = "sleepfuse-review.csv"
 REVIEW_COLUMNS = ["participant", "night", "source", "decision", "reason", "decided_at", "reviewer"]
@@ -42,33 +42,78 @@ def review_path(study: str | Path) -> Path:
     return Path(study) / REVIEW_FILE
 
 
-def load_decisions(study: str | Path) -> list[Decision]:
-    """All decisions in file order; a malformed line raises ConfigError naming the line."""
+def load_decisions(study: str | Path, qc: QCLog | None = None) -> list[Decision]:
+    """All well-formed decisions in file order.
+
+    A malformed line is skipped and reported to ``qc`` (an error naming the
+    line number and the reason); the good lines still count. A file that
+    cannot be read at all (not UTF-8, columns missing) gives one error and
+    no decisions. Nothing here ever stops a run."""
     path = review_path(study)
-    if not path.exists():
+    if not path.is_file():
         return []
-    text = path.read_text(encoding="utf-8-sig")
+    report = (lambda line, why: qc.error(f"line {line}: {why}; this line is ignored", file=REVIEW_FILE)) \
+        if qc is not None else (lambda line, why: None)
+    try:
+        text = path.read_text(encoding="utf-8-sig")
+    except (OSError, UnicodeDecodeError) as exc:
+        if qc is not None:
+            qc.error(f"cannot be read ({type(exc).__name__}); no review decision applied", file=REVIEW_FILE)
+        return []
     reader = csv.DictReader(io.StringIO(text))
-    missing = [c for c in REVIEW_COLUMNS[:5] if c not in (reader.fieldnames or [])]
+    try:
+        fields = reader.fieldnames or []
+    except csv.Error as exc:
+        fields, _ = [], exc
+    missing = [c for c in REVIEW_COLUMNS[:5] if c not in fields]
     if missing:
-        raise ConfigError(REVIEW_FILE, ",".join(reader.fieldnames or []), f"columns {', '.join(REVIEW_COLUMNS)}", path)
+        if qc is not None:
+            qc.error(f"line 1: the header lacks the columns {', '.join(missing)} (expected "
+                     f"{', '.join(REVIEW_COLUMNS)}); no review decision applied", file=REVIEW_FILE)
+        return []
     out = []
-    for i, row in enumerate(reader, start=2):
-        decision = (row.get("decision") or "").strip().lower()
-        source = (row.get("source") or "").strip().lower()
-        night = (row.get("night") or "").strip()
-        if decision not in DECISIONS:
-            raise ConfigError(f"{REVIEW_FILE} line {i} decision", decision, ", ".join(DECISIONS), path)
-        if source not in SOURCES:
-            raise ConfigError(f"{REVIEW_FILE} line {i} source", source, ", ".join(SOURCES), path)
+    while True:
         try:
-            dt.date.fromisoformat(night)
-        except ValueError:
-            raise ConfigError(f"{REVIEW_FILE} line {i} night", night, "an ISO date such as 2026-10-31", path) from None
-        out.append(Decision((row.get("participant") or "").strip(), night, source, decision,
-                            (row.get("reason") or "").strip(), (row.get("decided_at") or "").strip(),
-                            (row.get("reviewer") or "").strip()))
+            row = next(reader)
+        except StopIteration:
+            break
+        except csv.Error as exc:
+            report(reader.line_num, f"not readable as CSV ({exc})")
+            continue
+        line = reader.line_num
+        why = _line_problem(row)
+        if why:
+            report(line, why)
+            continue
+        out.append(Decision(row["participant"].strip(), row["night"].strip(), row["source"].strip().lower(),
+                            row["decision"].strip().lower(), (row.get("reason") or "").strip(),
+                            (row.get("decided_at") or "").strip(), (row.get("reviewer") or "").strip()))
     return out
+
+
+def _line_problem(row: dict) -> str | None:
+    """Why one line of the review file cannot be applied, or None."""
+    if None in row:
+        return "more fields than the header"
+    if any(row.get(c) is None for c in REVIEW_COLUMNS[:4]):
+        return "fewer fields than the header"
+    if not row["participant"].strip():
+        return "no participant"
+    decision, source, night = (row["decision"].strip().lower(), row["source"].strip().lower(), row["night"].strip())
+    if decision not in DECISIONS:
+        return f"decision {_short(decision)} is not one of {', '.join(DECISIONS)}"
+    if source not in SOURCES:
+        return f"source {_short(source)} is not one of {', '.join(SOURCES)}"
+    try:
+        dt.date.fromisoformat(night)
+    except ValueError:
+        return f"night {_short(night)} is not an ISO date such as 2026-10-31"
+    return None
+
+
+def _short(text: str, limit: int = 30) -> str:
+    """A value quoted in a message, cut short (a message never carries a long piece of a file)."""
+    return repr(text if len(text) <= limit else text[:limit] + "...")
 
 
 def effective(decisions: list[Decision]) -> dict[tuple[str, str, str], Decision]:
@@ -111,25 +156,56 @@ def record_decision(study: str | Path, participant: str, night: str, source: str
     now = dt.datetime.now(dt.timezone.utc).astimezone(zone).replace(microsecond=0)
     d = Decision(participant, night, source, decision, reason.strip(), now.isoformat(),
                  (reviewer or "").strip() or default_reviewer())
-    decisions = load_decisions(study) + [d]
+    path = review_path(study)
+    # The file is extended, never re-written from what could be parsed: a line sleepfuse cannot
+    # read is kept for the person who wrote it.
+    try:
+        old = path.read_bytes().decode("utf-8-sig") if path.is_file() else ""
+    except UnicodeDecodeError:
+        raise ValueError(f"{REVIEW_FILE} is not UTF-8 text; mend or move it before saving a decision") from None
     buf = io.StringIO()
     w = csv.DictWriter(buf, fieldnames=REVIEW_COLUMNS, lineterminator="\n")
-    w.writeheader()
-    for item in decisions:
-        w.writerow(asdict(item))
-    write_text(review_path(study), buf.getvalue())
+    if not old.strip():
+        old = ""
+        w.writeheader()
+    else:
+        first, newline, rest = old.partition("\n")
+        header = next(csv.reader([first.rstrip("\r")]), [])
+        if header != REVIEW_COLUMNS:
+            if header == REVIEW_COLUMNS[: len(header)] and len(header) >= 5:  # an older file: columns added at the end
+                old = ",".join(REVIEW_COLUMNS) + "\n" + rest
+            else:
+                raise ValueError(f"the first line of {REVIEW_FILE} is not the header "
+                                 f"{','.join(REVIEW_COLUMNS)}; mend it before saving a decision")
+        if not old.endswith(("\n", "\r")):
+            old += "\n"
+    w.writerow(asdict(d))
+    write_text(path, old + buf.getvalue())
     return d
 
 
-def apply_decisions(nights: pd.DataFrame, decisions: list[Decision]) -> pd.DataFrame:
-    """Honour review decisions on the night table: excluded nights get included=False and the reason in qc."""
-    if nights.empty or not decisions:
+def apply_decisions(nights: pd.DataFrame, decisions: list[Decision], qc: QCLog | None = None) -> pd.DataFrame:
+    """Honour review decisions on the night table: excluded nights get included=False and the reason in qc.
+
+    With ``qc``, a decision for a participant or night the table does not hold gets a warning."""
+    if not decisions:
         return nights
-    nights = nights.copy()
-    index = {(p, n, s): i for i, (p, n, s) in enumerate(zip(nights["participant"], nights["night"], nights["source"]))}
+    if nights.empty:
+        index: dict = {}
+    else:
+        nights = nights.copy()
+        index = {(p, str(n), s): i
+                 for i, (p, n, s) in enumerate(zip(nights["participant"], nights["night"], nights["source"]))}
+    known = set(nights["participant"]) if not nights.empty else set()
+    log = qc
     for key, d in effective(decisions).items():
         i = index.get(key)
         if i is None:
+            if log is not None:
+                what = (f"participant {_short(d.participant)} is not in this study" if d.participant not in known
+                        else f"participant {d.participant} has no {d.source} night on {d.night}")
+                log.warning(f"review decision ({d.decision} {d.source} {d.night}) not applied: {what}",
+                           file=REVIEW_FILE, participant=d.participant if d.participant in known else "")
             continue
         qc = nights.at[i, "qc"]
         if d.decision == "exclude":
