@@ -4,9 +4,11 @@ Follows the EDF specification (Kemp et al. 1992, Electroenceph Clin
 Neurophysiol 82:391-393) and EDF+ (Kemp & Olivan 2003, Clin Neurophysiol
 114:1755-1761). ``read_header`` parses and validates the header bytes into an
 ``EdfHeader`` (start time, variant, record layout, one ``SignalHeader`` per
-signal; no personal fields). The patient field (bytes 8-88) is never decoded
-into a stored value; only ``patient_tokens`` reads it, so that messages can
-be scrubbed of it.
+signal; no personal fields). The patient and recording fields (bytes 8-168)
+are never decoded into a stored value; only ``patient_tokens`` reads them, so
+that messages can be scrubbed of them. Messages quote a header field's value
+only when it is made of digits and punctuation (a misplaced name, in a header
+shifted by an over-long field, is never quoted).
 
 Part of the EDF+ parser; import these names from ``_edfplus``, which re-exports them.
 """
@@ -67,15 +69,39 @@ class EdfHeader:
         return [i for i, s in enumerate(self.signals) if s.is_annotation]
 
 
+_SPLIT = re.compile(r"[\s_,;:./()\[\]<>'\"=+-]+")
+_NUMERIC = re.compile(r"^[0-9 .:+\-eE]*$")  # a header value safe to quote: no letters other than an exponent
+
+
 def patient_tokens(raw_header: bytes) -> list[str]:
-    """Words of the patient field (for scrubbing messages only; never stored or shown)."""
-    text = raw_header[8:88].decode("latin-1")
+    """Words of the patient and recording fields, bytes 8-168 (for scrubbing messages only; never stored or shown).
+
+    Every token with a letter counts, however short (initials, "Jo", "Li"), and
+    every number of three or more digits (a birth year, a hospital code). Left
+    out: the EDF+ structure of the recording field ("Startdate" and its date,
+    which the header's start date at bytes 168-176 repeats), the placeholder
+    "X", and one- or two-digit numbers (a day of the month would otherwise
+    wipe every clock time from a message)."""
+    text = raw_header[8:168].decode("latin-1")
+    structural = {"startdate", "x"}
+    rec = _RECORDING_START.match(raw_header[88:168].decode("latin-1"))
+    if rec:
+        structural |= {f"{rec.group(1)}-{rec.group(2)}-{rec.group(3)}".lower(), rec.group(2).lower(), rec.group(3)}
     words = set()
     for token in text.split():
-        for part in [token, *token.replace("_", " ").replace(",", " ").split()]:
-            if len(part) >= 3 and part.upper() not in {"X", "XX", "XXX"}:
+        for part in [token, *_SPLIT.split(token)]:
+            if not part or part.lower() in structural:
+                continue
+            if any(c.isalpha() for c in part) or len(part) >= 3:
                 words.add(part)
     return sorted(words, key=len, reverse=True)
+
+
+def _quoted(text: str) -> str:
+    """A header value for a message: quoted when it is digits and punctuation, else withheld."""
+    if _NUMERIC.match(text):
+        return repr(text[:20])
+    return "text that is not shown (a header field in the wrong place may hold personal data)"
 
 
 def _ascii(raw: bytes) -> str:
@@ -85,14 +111,14 @@ def _ascii(raw: bytes) -> str:
 def _field_int(path: Path, raw: bytes, name: str) -> int:
     text = _ascii(raw)
     if not _INT.match(text):
-        raise ReadError(path, f"header field '{name}' is not a whole number: {text[:20]!r}")
+        raise ReadError(path, f"header field '{name}' is not a whole number: {_quoted(text)}")
     return int(text)
 
 
 def _field_float(path: Path, raw: bytes, name: str) -> float:
     text = _ascii(raw)
     if not _FLOAT.match(text):
-        raise ReadError(path, f"header field '{name}' is not a number: {text[:20]!r}")
+        raise ReadError(path, f"header field '{name}' is not a number: {_quoted(text)}")
     return float(text)
 
 
@@ -102,9 +128,9 @@ def _start_datetime(path: Path, raw: bytes, notes: list[str]) -> dt.datetime:
     date_txt, time_txt = _ascii(raw[168:176]), _ascii(raw[176:184])
     dm, tm = _DATE.match(date_txt), _DATE.match(time_txt)
     if not dm:
-        raise ReadError(path, f"header start date is not dd.mm.yy: {date_txt!r}")
+        raise ReadError(path, f"header start date is not dd.mm.yy: {_quoted(date_txt)}")
     if not tm:
-        raise ReadError(path, f"header start time is not hh.mm.ss: {time_txt!r}")
+        raise ReadError(path, f"header start time is not hh.mm.ss: {_quoted(time_txt)}")
     day, month, yy = (int(g) for g in dm.groups())
     year = 1900 + yy if yy >= 85 else 2000 + yy
     rec = _RECORDING_START.match(raw[88:168].decode("ascii", errors="replace"))
@@ -113,9 +139,9 @@ def _start_datetime(path: Path, raw: bytes, notes: list[str]) -> dt.datetime:
         if (r_day, r_month, r_year % 100) == (day, month, yy):
             year = r_year
         else:
-            notes.append(
-                f"recording field Startdate {r_day:02d}-{_MONTHS[r_month - 1]}-{r_year} disagrees with "
-                f"the header start date {date_txt}; the header date is used"
+            notes.append(  # the recording field itself is never quoted
+                f"the EDF+ recording field's start date disagrees with the header start date {date_txt}; "
+                f"the header date is used"
             )
     try:
         return dt.datetime(year, month, day, *(int(g) for g in tm.groups()))

@@ -86,7 +86,7 @@ def read_hypnogram(
     tokens: list[str] = []
     try:
         raw, size, content = _read_header_bytes(path)
-        tokens = edfplus.patient_tokens(raw) if len(raw) >= 88 else []
+        tokens = edfplus.patient_tokens(raw) if len(raw) > 8 else []
         header = edfplus.read_header(path, raw, size)
         hypnogram = _hypnogram(path, header, tz, float(epoch_s), label_table, code_table, signal_label, content)
         if content is not None:
@@ -96,7 +96,7 @@ def read_hypnogram(
     except MemoryError:
         raise ReadError(path, "not enough memory to read this file") from None
     except Exception as exc:  # never a bare traceback for a bad file
-        reason = f"unexpected error while reading ({type(exc).__name__}: {exc})"
+        reason = f"unexpected error while reading ({type(exc).__name__}: {_excerpt(str(exc))})"
         raise ReadError(path, _scrub(reason, tokens)) from None
     return _scrubbed(hypnogram, tokens)
 
@@ -171,9 +171,25 @@ def _read_up_to(fd: int, n: int) -> bytes:
 
 
 def _scrub(text: str, tokens: list[str]) -> str:
+    """``text`` without any word of the header's patient and recording fields.
+
+    Tokens of three or more characters go wherever they appear; shorter ones
+    (initials, short names) only as whole words, so "Jo" leaves "Joint" alone."""
     for token in tokens:
-        text = re.sub(re.escape(token), "***", text, flags=re.IGNORECASE)
+        if len(token) >= 3:
+            text = re.sub(re.escape(token), "***", text, flags=re.IGNORECASE)
+        else:
+            text = re.sub(rf"(?<![^\W_]){re.escape(token)}(?![^\W_])", "***", text, flags=re.IGNORECASE)
     return text
+
+
+EXCERPT = 60  # characters of a file's content a message may quote
+
+
+def _excerpt(text: str) -> str:
+    """At most EXCERPT characters of ``text`` on one line."""
+    text = " ".join(text.split())
+    return text if len(text) <= EXCERPT else text[:EXCERPT] + "..."
 
 
 def _scrubbed(h: Hypnogram, tokens: list[str]) -> Hypnogram:

@@ -34,7 +34,8 @@ if TYPE_CHECKING:  # pragma: no cover
 
 CACHE_DIR = ".sleepfuse-cache"
 CACHE_FILE = "outcomes.sqlite"
-CACHE_FORMAT = 6  # bump when ParticipantOutcome or its JSON form changes (5: window times in whole seconds; 6: missing_min)
+CACHE_FORMAT = 7  # bump when ParticipantOutcome or its JSON form changes (5: window times in whole seconds;
+#                  6: missing_min; 7: EDF header text scrubbed from bytes 8-168)
 _LIBRARIES = ("numpy", "pandas", "scipy", "pyedflib")
 _COMMIT_EVERY_S = 2.0
 
