@@ -184,3 +184,25 @@ def test_pattern_check_tells_nested_repeats_from_ordinary_ones(pattern, refused)
     from sleepfuse.model.patterns import regex_problem
 
     assert bool(regex_problem(pattern)) is refused
+
+
+# --- item 13: messages quote at most a short excerpt of a file --------------------------------------
+
+def test_messages_quote_only_a_short_excerpt_of_a_file(study):
+    from sleepfuse.study.folder import MESSAGE_MAX, load_participant
+
+    secret_run = "Q" * 3000
+    (study / "actigraphy" / "P03_wide.csv").write_text(f"{secret_run},counts\n2026-10-28T12:00:00,5\n")
+    (study / "diary" / "P03_diary.csv").write_text(
+        "night,bedtime,tried_to_sleep,sol_min,nwak,waso_min,final_awakening,out_of_bed,quality\n"
+        f"2026-10-28,22:40,23:00,{'7' * 2000}x,2,20,06:30,07:00,3\n"
+        f"{'2026-10-29' * 300},22:40,23:00,15,2,20,06:30,07:00,3\n")
+    config = load_config(study)
+    qc = QCLog()
+    found = discover(config, qc)
+    load_participant(config, "P03", found.by_participant["P03"], qc)
+    lines = [e for e in qc if e.participant == "P03" or "P03" in e.file]
+    assert lines
+    for e in lines:
+        assert len(e.message) <= MESSAGE_MAX
+        assert "Q" * 60 not in e.message and "7" * 60 not in e.message

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import datetime as dt
 import hashlib
+import re
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable, Iterable
@@ -181,10 +182,21 @@ def _rel(path: Path, root: Path) -> str:
         return str(path)
 
 
+QUOTE_MAX, MESSAGE_MAX = 40, 400  # characters of a quoted piece of a file, of a whole message
+_QUOTED = re.compile(r"'(?:[^'\\\n]|\\.){%d,}'|\"(?:[^\"\\\n]|\\.){%d,}\"" % (QUOTE_MAX + 1, QUOTE_MAX + 1))
+
+
+def short_excerpts(message: str) -> str:
+    """A reader's message with every quoted piece of file content cut to QUOTE_MAX characters
+    and the whole to MESSAGE_MAX: a QC line never carries a long stretch of a file."""
+    message = _QUOTED.sub(lambda m: m.group(0)[: QUOTE_MAX + 1] + "..." + m.group(0)[0], message)
+    return message if len(message) <= MESSAGE_MAX else message[: MESSAGE_MAX - 3] + "..."
+
+
 def _report_problems(qc: QCLog, problems: Iterable[Problem], *, file: str, participant: str) -> None:
     for p in problems:
         night = p.night if p.night is not None else (night_of(p.time) if p.time is not None else "")
-        qc.add(p.severity if p.severity in ("info", "warning", "error") else "warning", p.message,
+        qc.add(p.severity if p.severity in ("info", "warning", "error") else "warning", short_excerpts(p.message),
                file=file, participant=p.participant or participant, night=night)
 
 
@@ -243,7 +255,7 @@ def load_participant(
             try:
                 record = read(path)
             except ReadError as exc:
-                qc.error(f"{label} file not read: {exc.reason}", file=rel, participant=participant)
+                qc.error(f"{label} file not read: {short_excerpts(exc.reason)}", file=rel, participant=participant)
                 continue
             _report_problems(qc, record.problems, file=rel, participant=participant)
             for entry in getattr(record, "entries", ()):  # diary rows name their file in every later QC line
@@ -295,7 +307,7 @@ def read_combined_diaries(config: StudyConfig, paths: Iterable[Path], qc: QCLog)
         try:
             d = read_diary_file(config, path, None)
         except ReadError as exc:
-            qc.error(f"diary file not read: {exc.reason}", file=rel)
+            qc.error(f"diary file not read: {short_excerpts(exc.reason)}", file=rel)
             continue
         _report_problems(qc, d.problems, file=rel, participant="")
         for e in d.entries:
