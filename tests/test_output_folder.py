@@ -228,6 +228,17 @@ def test_out_folder_that_refuses_writing_is_a_usage_error(study, tmp_path, monke
         raise PermissionError(13, "Permission denied")
 
     monkeypatch.setattr(outdir.tempfile, "mkstemp", refused)
+    (tmp_path / "out").mkdir()
     assert _batch(study, tmp_path / "out") == 2
     err = capsys.readouterr().err
     assert "cannot write in the output folder" in err and "Permission denied" in err and "Traceback" not in err
+
+
+def test_missing_out_under_a_folder_that_refuses_writing(study, tmp_path, monkeypatch, capsys):
+    import sleepfuse.run.outdir as outdir
+
+    monkeypatch.setattr(outdir.os, "access", lambda path, mode: False)
+    assert _batch(study, tmp_path / "new" / "out") == 2
+    err = capsys.readouterr().err
+    assert "is not writable" in err and "Traceback" not in err
+    assert not (tmp_path / "new").exists()  # nothing created for a run that cannot write

@@ -37,7 +37,7 @@ from sleepfuse.fusion.agreement import agreement_provenance
 from sleepfuse.fusion.epoch_table import epoch_table
 from sleepfuse.fusion.matrix import codebook, participant_matrix
 from sleepfuse.fusion.pairs import agreement_table
-from sleepfuse.run.outdir import (PROVENANCE, check_out, earlier_outputs, foreign_files, remove_leftover_temps,
+from sleepfuse.run.outdir import (PROVENANCE, check_out, earlier_outputs, foreign_files, make_out, remove_leftover_temps,
                                   remove_stale, what_is_left)
 from sleepfuse.run.engine import ParticipantOutcome, input_record, process_pool, rel_path
 from sleepfuse.run.participant import plan_jobs
@@ -161,7 +161,7 @@ def run_batch(
         if pool is not None:
             pool.shutdown(wait=True)
     tables = build_tables(config, outcomes, qc, options, decisions)
-    out.mkdir(parents=True, exist_ok=True)
+    make_out(out)
     notes = [f"removed {len(t)} temporary files an interrupted earlier run left" for t in [remove_leftover_temps(out)] if t]
     earlier = earlier_outputs(out)
     # provenance.json marks a complete run: remove an older one first, so a run cut short

@@ -40,10 +40,16 @@ def check_out(out: Path, study: Path) -> None:
             f"input. Choose a folder outside the study, e.g. --out {Path(study).resolve().parent / 'results'}")
     if out.exists() and not out.is_dir():
         raise OutputFolderError(f"--out {out} is an existing file, not a folder; give a folder to write the tables into")
-    try:
-        out.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise OutputFolderError(f"cannot create the output folder {out}: {exc.strerror or exc}") from None
+    if not out.exists():  # created only when the outputs are written: check where it would go
+        parent = out.absolute().parent
+        while not parent.exists() and parent != parent.parent:
+            parent = parent.parent
+        if not parent.is_dir():
+            raise OutputFolderError(f"cannot create the output folder {out}: {parent} is a file, not a folder")
+        if not os.access(parent, os.W_OK | os.X_OK):
+            raise OutputFolderError(f"cannot create the output folder {out}: {parent} is not writable; "
+                                    f"choose another --out or change the folder's permissions")
+        return
     try:  # the only sure test of writing is to write (permissions, read-only mounts, ACLs)
         fd, probe = tempfile.mkstemp(dir=out, prefix=".sleepfuse-probe.", suffix=".tmp")
         os.close(fd)
@@ -51,6 +57,14 @@ def check_out(out: Path, study: Path) -> None:
     except OSError as exc:
         raise OutputFolderError(f"cannot write in the output folder {out}: {exc.strerror or exc}; "
                                 f"choose another --out or change the folder's permissions") from None
+
+
+def make_out(out: Path) -> None:
+    """Create the output folder (after scoring), with the same clear error as ``check_out``."""
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise OutputFolderError(f"cannot create the output folder {out}: {exc.strerror or exc}") from None
 
 
 def remove_leftover_temps(out: Path) -> list[str]:
