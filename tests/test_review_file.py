@@ -92,7 +92,11 @@ def test_saving_a_decision_keeps_lines_it_cannot_read(study):
     before = (study / REVIEW_FILE).read_text()
     record_decision(study, "P02", "2026-10-29", "psg", "exclude", "electrode off")
     after = (study / REVIEW_FILE).read_text()
-    assert after.startswith(before)  # nothing the user wrote is lost
+    old_lines, new_lines = before.splitlines(), after.splitlines()
+    assert new_lines[0] == HEADER.strip() + ",reviewer"  # an older file's header gains the new column
+    kept = list(csv.reader(new_lines[1:len(old_lines)]))
+    assert [k[:len(o)] for k, o in zip(kept, csv.reader(old_lines[1:]))] == list(csv.reader(old_lines[1:]))
+    assert len(kept) == len(old_lines) - 1  # nothing the user wrote is lost, bad lines included
     last = list(csv.DictReader(after.splitlines()))[-1]
     assert (last["participant"], last["reason"]) == ("P02", "electrode off")
 

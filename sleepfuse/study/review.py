@@ -173,7 +173,13 @@ def record_decision(study: str | Path, participant: str, night: str, source: str
         header = next(csv.reader([first.rstrip("\r")]), [])
         if header != REVIEW_COLUMNS:
             if header == REVIEW_COLUMNS[: len(header)] and len(header) >= 5:  # an older file: columns added at the end
-                old = ",".join(REVIEW_COLUMNS) + "\n" + rest
+                pad = [""] * (len(REVIEW_COLUMNS) - len(header))
+                upgraded = io.StringIO()
+                out = csv.writer(upgraded, lineterminator="\n")
+                out.writerow(REVIEW_COLUMNS)
+                for record in csv.reader(io.StringIO(rest)):  # every record kept, a line it cannot read too
+                    out.writerow(record + pad if len(record) == len(header) else record)
+                old = upgraded.getvalue()
             else:
                 raise ValueError(f"the first line of {REVIEW_FILE} is not the header "
                                  f"{','.join(REVIEW_COLUMNS)}; mend it before saving a decision")
