@@ -183,7 +183,8 @@ def _rel(path: Path, root: Path) -> str:
 
 
 QUOTE_MAX, MESSAGE_MAX = 40, 400  # characters of a quoted piece of a file, of a whole message
-_QUOTED = re.compile(r"'(?:[^'\\\n]|\\.){%d,}'|\"(?:[^\"\\\n]|\\.){%d,}\"" % (QUOTE_MAX + 1, QUOTE_MAX + 1))
+# a quote opens after a non-word character (so the closing quote of 'a' never opens 'b')
+_QUOTED = re.compile(r"(?<!\w)'(?:[^'\\\n]|\\.){%d,}'|(?<!\w)\"(?:[^\"\\\n]|\\.){%d,}\"" % (QUOTE_MAX + 1, QUOTE_MAX + 1))
 
 
 def short_excerpts(message: str) -> str:
