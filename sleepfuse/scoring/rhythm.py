@@ -10,16 +10,8 @@ Per participant over the whole recording, not per night.
 
 from __future__ import annotations
 
-import datetime as dt
-from zoneinfo import ZoneInfo
-
 import numpy as np
 import pandas as pd
-
-try:  # the conversion DatetimeIndex.tz_localize(None) runs on a tz-aware index
-    from pandas._libs.tslibs import tz_convert_from_utc as _tz_convert_from_utc
-except ImportError:  # pragma: no cover - another pandas layout: the public path only
-    _tz_convert_from_utc = None
 
 RHYTHM_PARAMETERS = ("is", "iv", "m10", "l5", "ra")
 HOURS_PER_DAY = 24  # p in Van Someren et al. 1999
@@ -38,27 +30,13 @@ def _elapsed_ns(start: pd.Timestamp, epoch_s: float, n: int) -> np.ndarray:
     return times.as_unit("ns").asi8
 
 
-def _ask_offsets_pandas(utc_ns: np.ndarray, tz) -> np.ndarray:
-    """Local UTC offset (ns) of the zone at each UTC instant (ns), by pandas' public API."""
+def _ask_offsets(utc_ns: np.ndarray, tz) -> np.ndarray:
+    """Local UTC offset (ns) of the zone at each UTC instant (ns), by pandas' public API.
+
+    Called on about one instant per hour of a recording (``_offset_segments``),
+    so building the indexes costs well under a millisecond per participant."""
     idx = pd.DatetimeIndex(utc_ns.astype("datetime64[ns]")).tz_localize("UTC").tz_convert(tz)
     return idx.tz_localize(None).as_unit("ns").asi8 - utc_ns
-
-
-def _ask_offsets(utc_ns: np.ndarray, tz) -> np.ndarray:
-    """Local UTC offset (ns) of the zone at each UTC instant (ns).
-
-    For a ``ZoneInfo`` or fixed ``datetime.timezone`` (the zones the readers
-    hand out), the wall clock comes from the very function that
-    ``tz_localize(None)`` applies to the index built by
-    :func:`_ask_offsets_pandas` (pandas keeps such a zone as it is in the
-    dtype), without building three indexes: about 65 µs less a call, same
-    integers (tests/test_scoring_speed_equivalence.py). Other zone objects,
-    or a pandas without that function, take the public path.
-    """
-    if _tz_convert_from_utc is not None and type(tz) in (ZoneInfo, dt.timezone):
-        u = np.ascontiguousarray(utc_ns, dtype=np.int64)
-        return _tz_convert_from_utc(u, tz) - u
-    return _ask_offsets_pandas(utc_ns, tz)
 
 
 def _offset_segments(u0: int, step_ns: int, n: int, tz) -> list[tuple[int, int, int]]:
