@@ -141,28 +141,49 @@ def test_best_clock_offset_prefers_zero_on_ties_and_respects_range():
 
 
 @pytest.mark.parametrize("seed", range(6))
-def test_whole_epoch_shift_counts_equal_the_dense_lookup(seed):
-    # The correlation shortcut (_shift_counts) must give the very counts of looking every
-    # PSG midpoint up at every offset (_dense_counts), including offsets that push the
-    # night past either end of the recording, odd lags and invalid minutes.
-    from sleepfuse.fusion.epochs import _dense_counts, _shift_counts
+def test_offset_search_counts_what_the_grid_holds_at_every_offset(seed):
+    # The search counts by cross-correlation (_shift_counts). At every offset its 2 × 2 table
+    # must be the one the grid itself gives (common_grid at that offset, counted by hand),
+    # including offsets that push the night past either end of the recording, odd lags,
+    # unscored PSG epochs and invalid minutes.
+    from sleepfuse.fusion.epochs import _shift_counts
 
     rng = np.random.default_rng(seed)
-    n_psg, n_act, k_max = int(rng.integers(5, 900)), int(rng.integers(1, 700)), int(rng.integers(0, 40))
-    lag = float(rng.choice([0.0, 30.0, -600.0, 1234.5, 17.25, rng.uniform(-3000, 3000)]))
-    mid = lag + (np.arange(n_psg) + 0.5) * 30.0
-    mid = mid[rng.random(n_psg) < 0.9]  # some PSG epochs not scored
-    psg_sleep = rng.random(mid.size) < 0.7
+    n_psg, n_act, k_max = int(rng.integers(5, 300)), int(rng.integers(1, 250)), int(rng.integers(0, 12))
+    lag_s = float(rng.choice([0.0, 30.0, -600.0, 1234.5, 17.25, rng.uniform(-3000, 3000)]))
+    codes = rng.choice([Stage.WAKE, Stage.N2, Stage.REM, Stage.UNSCORED], n_psg).astype(np.int8)
     act = rng.random(n_act) < 0.6
     act_ok = rng.random(n_act) < 0.93
-    offsets = np.arange(-k_max, k_max + 1) * 60.0
-    fast = _shift_counts(mid, psg_sleep, 60.0, act, act_ok, k_max)
-    dense = _dense_counts(mid, psg_sleep, offsets, 60.0, act, act_ok)
-    for f, d in zip(fast, dense):
-        np.testing.assert_array_equal(f, d)
+    act_start = T0 - pd.Timedelta(seconds=lag_s)
+    mid = lag_s + (np.arange(n_psg) + 0.5) * 30.0
+    scored = codes != Stage.UNSCORED
+    psg_sleep = (codes != Stage.WAKE)[scored]
+    tp, fn, tn, fp = _shift_counts(mid[scored], psg_sleep, 60.0, act, act_ok, k_max)
+    for i, k in enumerate(range(-k_max, k_max + 1)):
+        psg, a, ok = common_grid(T0, 30, codes, act_start, 60, act, act_ok, offset_s=60.0 * k)
+        assert (tp[i], fn[i], tn[i], fp[i]) == (
+            np.sum(psg & a & ok), np.sum(psg & ~a & ok), np.sum(~psg & ~a & ok), np.sum(~psg & a & ok))
 
 
-def test_finer_step_than_the_actigraphy_epoch_still_searches_every_step():
-    codes, act_start, act, present = _synthetic_night(shift_min=7)
-    res = best_clock_offset(T0, 30, codes, act_start, 60, act, present, step_s=30, max_offset_min=10)
-    assert res["n_offsets"] == 41 and res["offset_s"] == -420.0
+@pytest.mark.parametrize("shift_min", [0, 7, -12])
+def test_night_agreement_is_the_public_functions_in_one_pass(shift_min):
+    # night_agreement serves epoch_rows: the agreement at the files' clocks must be
+    # epoch_agreement(common_grid(...)) and the search best_clock_offset's, in a window.
+    from sleepfuse.fusion.epochs import night_agreement
+
+    codes, act_start, act, present = _synthetic_night(shift_min=shift_min)
+    window = (T0 + pd.Timedelta(minutes=5), T0 + pd.Timedelta(hours=6))
+    args = (T0, 30, codes, act_start, 60, act, present)
+    stats, counts, off = night_agreement(*args, window=window, max_offset_min=20)
+    psg, a, ok = common_grid(*args, window=window)
+    assert stats == epoch_agreement(psg, a, ok)
+    assert counts == (np.sum(psg & a & ok), np.sum(psg & ~a & ok), np.sum(~psg & ~a & ok), np.sum(~psg & a & ok))
+    assert off == best_clock_offset(*args, window=window, max_offset_min=20)
+    assert off["offset_s"] == -60.0 * shift_min
+
+
+def test_offset_search_range_is_checked():
+    codes, act_start, act, present = _synthetic_night(shift_min=0)
+    for bad in (-1, float("nan")):
+        with pytest.raises(ValueError, match="max_offset_min"):
+            best_clock_offset(T0, 30, codes, act_start, 60, act, present, max_offset_min=bad)

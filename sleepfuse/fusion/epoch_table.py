@@ -16,7 +16,7 @@ import pandas as pd
 from sleepfuse.model.config import StudyConfig
 from sleepfuse.model.qc import QCLog
 from ..scoring.nights import ScoredParticipant
-from .epochs import best_clock_offset, common_grid, epoch_agreement, night_agreement
+from .epochs import epoch_agreement, night_agreement
 
 EPOCH_COLUMNS = [
     "participant", "night", "n_epochs", "sensitivity", "specificity", "accuracy", "kappa",
@@ -26,30 +26,14 @@ EPOCH_COLUMNS = [
 POOLED = "(pooled)"
 
 
-def _counts(psg: np.ndarray, act: np.ndarray, ok: np.ndarray) -> dict[str, int]:
-    return {
-        "psg_sleep_act_sleep": int(np.sum(psg & act & ok)),
-        "psg_sleep_act_wake": int(np.sum(psg & ~act & ok)),
-        "psg_wake_act_wake": int(np.sum(~psg & ~act & ok)),
-        "psg_wake_act_sleep": int(np.sum(~psg & act & ok)),
-    }
-
-
 def epoch_rows(config: StudyConfig, scored: ScoredParticipant, qc: QCLog) -> list[dict]:
     """One row per PSG night that actigraphy also covers.
 
     Each night pairs with the first actigraphy record that overlaps its PSG
-    window and has an epoch valid at offset 0, as in ``_epoch_rows_careful``
-    (the public functions one after the other), which this equals value for
-    value. Per record, its end is computed once (``valid`` is computed once
-    by ``ActigraphyScoring`` itself); per night, ``night_agreement`` gives the
-    agreement, its counts and the offset search from one pass. A search range
-    outside [0, 1e6] min (config validation allows (0, 180]) takes the careful
-    path, so its errors stay those of ``best_clock_offset``.
+    window and has an epoch valid at offset 0; ``night_agreement`` gives the
+    agreement, its counts and the clock-offset search from one pass.
     """
     max_offset = config.agreement.clock_offset_max_min
-    if not (isinstance(max_offset, (int, float, np.integer, np.floating)) and 0 <= max_offset <= 1e6):
-        return _epoch_rows_careful(config, scored, qc)
     rows = []
     ends: dict[int, pd.Timestamp] = {}
     for night, h in sorted(scored.hypnograms.items()):
@@ -90,29 +74,6 @@ def _row(config: StudyConfig, scored: ScoredParticipant, night: str, stats: dict
         "participant": scored.participant, "night": night, **stats, **counts,
         "clock_offset_min": offset_min, "kappa_at_offset": off["kappa_at_best"], "offset_flag": flag,
     }
-
-
-def _epoch_rows_careful(config: StudyConfig, scored: ScoredParticipant, qc: QCLog) -> list[dict]:
-    """``epoch_rows`` by the public functions, each on its own: the reference the fast path equals."""
-    rows = []
-    for night, h in sorted(scored.hypnograms.items()):
-        window = scored.windows.get((night, "psg"))
-        if window is None:
-            continue
-        for act in scored.actigraphy:
-            end = act.start + pd.Timedelta(minutes=act.codes.size)
-            if act.start >= window.end or end <= window.start:
-                continue
-            args = (h.start, h.epoch_s, h.stages, act.start, 60.0, act.sleep, act.valid)
-            psg, a, ok = common_grid(*args, window=(window.start, window.end))
-            if not ok.any():
-                continue
-            stats = epoch_agreement(psg, a, ok)
-            off = best_clock_offset(*args, window=(window.start, window.end),
-                                    max_offset_min=config.agreement.clock_offset_max_min)
-            rows.append(_row(config, scored, night, stats, _counts(psg, a, ok), off, qc))
-            break
-    return rows
 
 
 def epoch_table(rows: list[dict]) -> pd.DataFrame:

@@ -150,26 +150,15 @@ def common_grid(
     return psg_sleep, a[0], scored & ok[0]
 
 
-def _dense_counts(mid, psg_sleep, offsets, act_epoch_s, act, act_ok):
-    """The 2 × 2 table (tp, fn, tn, fp) at every offset by looking every PSG midpoint up at every offset."""
-    a, ok = _lookup(mid, offsets, act_epoch_s, act, act_ok)
-    a_ok = a & ok
-    n_ok = np.count_nonzero(ok, axis=1)
-    n_psg = np.count_nonzero(ok & psg_sleep[None, :], axis=1)
-    n_act = np.count_nonzero(a_ok, axis=1)
-    tp = np.count_nonzero(a_ok & psg_sleep[None, :], axis=1)
-    fn, fp = n_psg - tp, n_act - tp
-    return tp, fn, n_ok - n_psg - fp, fp
-
-
 def _shift_counts(mid, psg_sleep, act_epoch_s, act, act_ok, k_max):
-    """The same table when the offsets are whole actigraphy epochs (k·act_epoch_s, k = −k_max..k_max).
+    """The 2 × 2 table (tp, fn, tn, fp) at every offset k·act_epoch_s, k = −k_max..k_max.
 
     Shifting the actigraph clock by k epochs moves every PSG midpoint's
     actigraphy epoch from j to j − k, so each count is a cross-correlation of
     per-epoch PSG tallies (scored epochs, PSG-sleep epochs per actigraphy
-    epoch) with the actigraphy series: O(epochs × offsets) multiply-adds in C
-    instead of a lookup table of that size. Equals ``_dense_counts`` (tested).
+    epoch) with the actigraphy series: O(epochs × offsets) integer
+    multiply-adds in C, exact. Each count at offset k is what ``common_grid``
+    with ``offset_s = k·act_epoch_s`` counts (tests/test_fusion_epochs.py).
     """
     n_off = 2 * k_max + 1
     zeros = np.zeros(n_off, dtype=np.int64)
@@ -199,46 +188,6 @@ def _shift_counts(mid, psg_sleep, act_epoch_s, act, act_ok, k_max):
     return tp, fn, n_ok - n_psg - fp, fp
 
 
-_PACK_BITS = 24  # low digit of the packed counts; every count must stay below 2**_PACK_BITS
-
-
-def _shift_counts_packed(mid, psg_sleep, act_epoch_s, act, act_ok, k_max):
-    """``_shift_counts`` with two float64 correlations instead of four int64 ones (same counts).
-
-    The two PSG tallies travel in one series, n_psg_at + 2**24 · sleep_at, so
-    one correlation with the valid-minute series gives n_ok + 2**24 · n_psg and
-    one with the valid-sleep-minute series gives n_act + 2**24 · tp. Exact:
-    every product and partial sum is a non-negative integer at most
-    mid.size · (1 + 2**24) < 2**48, which float64 holds exactly whatever the
-    summation order (the float dot may be BLAS, with or without FMA), and
-    0 ≤ n_ok, n_psg, n_act, tp ≤ mid.size < 2**24, so the low and high 24 bits
-    of the integer part them again. Longer nights take ``_shift_counts``.
-    """
-    bits = _PACK_BITS
-    if mid.size == 0 or act.size == 0 or mid.size >= (1 << bits):
-        return _shift_counts(mid, psg_sleep, act_epoch_s, act, act_ok, k_max)
-    j0 = np.floor(mid / act_epoch_s + 1e-9).astype(np.int64)
-    lo, hi = int(j0.min()), int(j0.max())
-    n_psg_at = np.bincount(j0 - lo, minlength=hi - lo + 1)
-    sleep_at = np.bincount(j0 - lo, weights=psg_sleep, minlength=hi - lo + 1)
-    packed = n_psg_at + float(1 << bits) * sleep_at
-    # act_ok[lo − k_max .. hi + k_max] and act & act_ok there, 0 outside the recording (as window() above)
-    ok_w = np.zeros(hi - lo + 1 + 2 * k_max)
-    a_ok_w = np.zeros(ok_w.size)
-    a, b = max(lo - k_max, 0), min(hi + k_max + 1, act.size)
-    if a < b:
-        ok = act_ok[a:b]
-        ok_w[a - (lo - k_max): b - (lo - k_max)] = ok
-        a_ok_w[a - (lo - k_max): b - (lo - k_max)] = act[a:b] & ok
-    low = (1 << bits) - 1
-    r_ok = np.correlate(ok_w, packed, "valid")[::-1].astype(np.int64)
-    r_act = np.correlate(a_ok_w, packed, "valid")[::-1].astype(np.int64)
-    n_ok, n_psg = r_ok & low, r_ok >> bits
-    n_act, tp = r_act & low, r_act >> bits
-    fn, fp = n_psg - tp, n_act - tp
-    return tp, fn, n_ok - n_psg - fp, fp
-
-
 def best_clock_offset(
     psg_start: pd.Timestamp,
     psg_epoch_s: float,
@@ -250,32 +199,28 @@ def best_clock_offset(
     *,
     window: tuple[pd.Timestamp, pd.Timestamp] | None = None,
     max_offset_min: float = 30.0,
-    step_s: float | None = None,
 ) -> dict:
     """Clock offset (s, added to actigraphy times) that maximises epoch-by-epoch kappa.
 
-    Every ``step_s`` (default one actigraphy epoch) within ±max_offset_min is
-    tried; ties go to the smallest |offset|, then the earlier one. Returns
-    offset_s, kappa_at_zero, kappa_at_best (common practice: a search, not a
-    published estimator). offset_s is NaN when kappa is undefined at every offset.
+    Every whole actigraphy epoch within ±max_offset_min is tried; ties go to
+    the smallest |offset|, then the earlier one. Returns offset_s,
+    kappa_at_zero, kappa_at_best, n_offsets (common practice: a search, not
+    a published estimator). offset_s is NaN when kappa is undefined at every
+    offset.
     """
-    step = float(act_epoch_s if step_s is None else step_s)
-    if step <= 0 or max_offset_min < 0:
-        raise ValueError(
-            f"step_s must be positive and max_offset_min non-negative, got {step}, {max_offset_min}"
-        )
     mid, psg_sleep, scored, act, act_ok = _grid_parts(
         psg_start, psg_epoch_s, psg_codes, act_start, act_epoch_s, act_sleep, act_valid, window
     )
-    k_max = int(np.floor(max_offset_min * 60.0 / step + 1e-9))
-    offsets = np.arange(-k_max, k_max + 1) * step
-    # Only scored PSG epochs can count at any offset, so look up just those (same counts, less work).
-    mid, psg_sleep = mid[scored], psg_sleep[scored]
-    if step == float(act_epoch_s):
-        tp, fn, tn, fp = _shift_counts_packed(mid, psg_sleep, float(act_epoch_s), act, act_ok, k_max)
-    else:
-        tp, fn, tn, fp = _dense_counts(mid, psg_sleep, offsets, float(act_epoch_s), act, act_ok)
-    return _pick_offset(_kappa(tp, fn, tn, fp), offsets, k_max)
+    k_max = _offset_steps(max_offset_min, act_epoch_s)
+    counts = _shift_counts(mid[scored], psg_sleep[scored], float(act_epoch_s), act, act_ok, k_max)
+    return _pick_offset(_kappa(*counts), np.arange(-k_max, k_max + 1) * float(act_epoch_s), k_max)
+
+
+def _offset_steps(max_offset_min: float, act_epoch_s: float) -> int:
+    """Whole actigraphy epochs searched on each side of zero."""
+    if not 0 <= max_offset_min <= 1e6:
+        raise ValueError(f"max_offset_min must be between 0 and 1e6 minutes, got {max_offset_min!r}")
+    return int(np.floor(max_offset_min * 60.0 / float(act_epoch_s) + 1e-9))
 
 
 def _pick_offset(kappas: np.ndarray, offsets: np.ndarray, k_max: int) -> dict:
@@ -297,27 +242,21 @@ def night_agreement(
     psg_start, psg_epoch_s, psg_codes, act_start, act_epoch_s, act_sleep, act_valid, *,
     window, max_offset_min: float,
 ) -> tuple[dict, tuple[int, int, int, int], dict] | None:
-    """``epoch_agreement`` of ``common_grid`` at offset 0, its 2 × 2 counts, and ``best_clock_offset``.
+    """A night's epoch agreement at the files' clocks, its 2 × 2 counts, and ``best_clock_offset``.
 
-    The same three results as calling the public functions one after the
-    other (default step: one actigraphy epoch), from one ``_grid_parts`` and
-    one offset search: the zero offset is one of the searched offsets, and
-    the search looks each scored PSG midpoint up in the very actigraphy epoch
-    that ``common_grid`` takes at offset 0 (floor(mid / act_epoch_s + 1e-9);
-    mid − 0.0 is mid in floating point), so its counts
-    at zero are ``epoch_agreement``'s, and kappa there is the same float
-    arithmetic on the same counts. Returns None when no epoch is valid at
-    offset 0 (where ``epoch_rows`` skips the night without searching).
-    Assumes 0 ≤ max_offset_min < inf (the caller checks; other values belong
-    to the public functions' own errors).
+    One offset search gives all three: offset 0 is one of the searched
+    offsets, where each scored PSG midpoint falls in the actigraphy epoch
+    that ``common_grid`` takes, so the counts there are ``epoch_agreement``'s
+    (tests/test_fusion_epochs.py). Returns None when no epoch is valid at
+    offset 0.
     """
     step = float(act_epoch_s)
     mid, psg_sleep, scored, act, act_ok = _grid_parts(
         psg_start, psg_epoch_s, psg_codes, act_start, act_epoch_s, act_sleep, act_valid, window
     )
-    k_max = int(np.floor(max_offset_min * 60.0 / step + 1e-9))
+    k_max = _offset_steps(max_offset_min, step)
     offsets = np.arange(-k_max, k_max + 1) * step
-    counts = _shift_counts_packed(mid[scored], psg_sleep[scored], step, act, act_ok, k_max)
+    counts = _shift_counts(mid[scored], psg_sleep[scored], step, act, act_ok, k_max)
     zero = tuple(int(v[k_max]) for v in counts)
     if sum(zero) == 0:
         return None
