@@ -12,10 +12,9 @@ field (bytes 8-88) is never decoded into a stored value; only
 ``patient_tokens`` reads it, so that messages can be scrubbed of it.
 
 This module holds the annotation records and the readers built on the parts:
-``read_annotation_lists`` / ``read_annotations`` (bulk path),
-``read_annotations_careful`` (reference path), ``data_records`` and
-``physical_samples``. The header lives in ``_edfheader`` and the TAL parsing
-(careful and fast) in ``_edftals``; their names are re-exported here, so
+``read_annotation_lists`` (``read_annotations`` gives the same as objects),
+``data_records`` and ``physical_samples``. The header lives in ``_edfheader``
+and the TAL grammar in ``_edftals``; their names are re-exported here, so
 ``from sleepfuse.readers import _edfplus`` reaches all of them.
 """
 
@@ -30,8 +29,7 @@ from sleepfuse.model.errors import ReadError
 
 # The header and the TAL parsers, re-exported: every name is importable from _edfplus as before.
 from ._edfheader import ANNOTATION_LABEL, EdfHeader, SignalHeader, patient_tokens, read_header  # noqa: F401
-from ._edftals import _keeper_values, _plain_keepers, _tal_number, _tals_after_keepers  # noqa: F401
-from ._edftals import _signal_annotations, parse_tals
+from ._edftals import _signal_annotations, parse_tals  # noqa: F401
 
 
 @dataclass
@@ -74,24 +72,19 @@ def data_records(path: Path, header: EdfHeader, content: bytes | None = None) ->
 
 
 def read_annotations(path: Path, header: EdfHeader, records: np.ndarray) -> AnnotationSet:
-    """All annotations of every annotation signal plus each record's time-keeping onset.
-
-    Bulk path (``read_annotation_lists``), same result as ``read_annotations_careful``
-    (checked in tests/test_readers_edf_fastpath.py and tests/test_readers_edf_speed_equivalence.py).
-    """
+    """All annotations of every annotation signal plus each record's time-keeping onset, as objects."""
     found = read_annotation_lists(path, header, records)
     annotations = list(map(Annotation, found.onsets_s, found.durations_s, found.texts))
     return AnnotationSet(annotations, found.record_onsets_s, found.notes)
 
 
 def read_annotation_lists(path: Path, header: EdfHeader, records: np.ndarray) -> AnnotationLists:
-    """``read_annotations`` as parallel lists (onset, duration, text), in the same order.
+    """Every annotation as parallel lists (onset, duration, text), record by record, then
+    signal by signal within a record; each record's time-keeping onset (first annotation
+    signal); notes on malformed TALs and records without a time-keeping TAL.
 
     The TALs (runs of non-NUL bytes inside one data record) of a signal are located with
-    numpy and, when all have the usual shape, read with one regular expression pass;
-    otherwise each TAL goes through ``parse_tals``. When every record of the first
-    annotation signal opens with a plain time-keeping TAL, those TALs are read at once
-    (``_plain_keepers``) and only the rest of the records goes through that path.
+    numpy and read with one regular-expression pass (``_edftals``).
     """
     indices = header.annotation_indices
     n = header.n_records
@@ -111,41 +104,12 @@ def read_annotation_lists(path: Path, header: EdfHeader, records: np.ndarray) ->
     if len(per_signal) == 1:
         on, du, tx, _ = per_signal[0]
         return AnnotationLists(on, du, tx, onsets, notes)
-    # record by record, then signal by signal, as the careful path reads them
+    # record by record, then signal by signal
     owner = np.array([r for *_, rs in per_signal for r in rs], dtype=np.int64)
     order = np.argsort(owner, kind="stable").tolist()
     pooled = [[v for cols in per_signal for v in cols[c]] for c in range(3)]
     on, du, tx = ([column[i] for i in order] for column in pooled)
     return AnnotationLists(on, du, tx, onsets, notes)
-
-
-def read_annotations_careful(path: Path, header: EdfHeader, records: np.ndarray) -> AnnotationSet:
-    """Reference path of ``read_annotations``: ``parse_tals`` record by record, signal by signal."""
-    indices = header.annotation_indices
-    n = header.n_records
-    onsets = np.full(n, np.nan)
-    if not indices:
-        onsets = np.arange(n) * header.record_duration_s
-        return AnnotationSet([], onsets)
-    blocks = []
-    for k in indices:
-        s = header.signals[k]
-        blocks.append(np.ascontiguousarray(records[:, s.offset : s.offset + header.sample_bytes * s.n_samples]))
-    annotations: list[Annotation] = []
-    bad = missing_keeper = 0
-    for r in range(n):
-        for j, block in enumerate(blocks):
-            tals, n_bad = parse_tals(block[r].tobytes())
-            bad += n_bad
-            for t, (onset, duration, texts) in enumerate(tals):
-                if j == 0 and t == 0:
-                    if texts and texts[0] == "":
-                        onsets[r] = onset
-                        texts = texts[1:]
-                    else:
-                        missing_keeper += 1
-                annotations.extend(Annotation(onset, duration, text) for text in texts if text != "")
-    return AnnotationSet(annotations, onsets, _annotation_notes(bad, missing_keeper))
 
 
 def _annotation_notes(bad: int, missing_keeper: int) -> list[str]:
