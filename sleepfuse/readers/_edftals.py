@@ -76,32 +76,31 @@ def _signal_annotations(
     count = len(groups)
     if count == 0:
         return [], [], [], [], bad, 0
-    onset_raw, duration_raw, rest = (list(c) for c in zip(*groups))
+    onset_raw, duration_raw, rest = zip(*groups)
+    skip = np.zeros(count, dtype=np.intp)  # bytes of a TAL's texts that are no annotation
     missing = 0
     if keeper_onsets is not None:
         first = np.ones(count, dtype=bool)  # the first TAL of its record
         first[1:] = owner[1:] != owner[:-1]
         # ... whose first text is empty: the time-keeping TAL (b"" holds no text at all)
         keeper = first & np.fromiter(map(bytes.startswith, rest, repeat(b"\x14")), dtype=bool, count=count)
-        kept = np.flatnonzero(keeper).tolist()
-        if kept:
-            keeper_onsets[owner[kept]] = [float(onset_raw[i]) for i in kept]
-        for i in kept:
-            rest[i] = rest[i][1:]  # its other texts are annotations
-        missing = int(np.count_nonzero(first)) - len(kept)
-    return (*_tal_lists(onset_raw, duration_raw, rest, owner.tolist()), bad, missing)
+        kept = np.flatnonzero(keeper)
+        if kept.size:
+            keeper_onsets[owner[kept]] = list(map(float, map(onset_raw.__getitem__, kept.tolist())))
+        skip[kept] = 1  # its empty first text; any other texts are annotations
+        missing = int(np.count_nonzero(first)) - kept.size
+    # Only TALs with more than b"" or b"\x14" left hold a text (most records hold just their keeper).
+    carriers = np.flatnonzero(np.fromiter(map(len, rest), np.intp, count) - skip > 1).tolist()
+    if not carriers:
+        return [], [], [], [], bad, missing
+    pick = [rest[i][skip[i]:] for i in carriers]
+    return (*_tal_lists([onset_raw[i] for i in carriers], [duration_raw[i] for i in carriers], pick,
+                        owner[carriers].tolist()), bad, missing)
 
 
 def _tal_lists(onset_raw: list[bytes], duration_raw: list[bytes], rest: list[bytes], owners: list[int]
                ) -> tuple[list[float], list[float | None], list[str], list[int]]:
-    """Onsets, durations, texts and records of every non-empty text of the TALs."""
-    carriers = [i for i, r in enumerate(rest) if len(r) > 1]  # b"" and b"\x14" hold no text
-    rest = [rest[i] for i in carriers]
-    if not rest:
-        return [], [], [], []
-    onset_raw = [onset_raw[i] for i in carriers]
-    duration_raw = [duration_raw[i] for i in carriers]
-    owners = [owners[i] for i in carriers]
+    """Onsets, durations, texts and records of every non-empty text of TALs that hold one."""
     duration_of = {d: float(d) if d else None for d in set(duration_raw)}
     if b"".join(rest).count(b"\x14") == len(rest):
         # The usual shape: each TAL holds one text, and it is not empty.
