@@ -11,6 +11,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from sleepfuse.scoring import rhythm as R
 from sleepfuse.scoring.rhythm import RHYTHM_PARAMETERS, hourly_means, rest_activity_rhythm
 
 TZ = "Europe/Berlin"
@@ -201,3 +202,30 @@ def test_hourly_means_equal_a_pandas_epoch_by_epoch_reference(tz, start, days, e
     np.testing.assert_array_equal(hm.index.as_unit("ns").asi8, keys)
     np.testing.assert_allclose(hm.to_numpy(), mean, rtol=1e-12, equal_nan=True)
     assert list(hm.index.hour) == list(pd.DatetimeIndex(pd.to_datetime(keys, utc=True)).tz_convert(tz).hour)
+
+
+def test_window_means_and_extremes_match_numpy():
+    # M10/L5 windows: the mean of ``width`` consecutive hours of the 24-h profile, wrapping round
+    # midnight, NaN when an hour is missing (numpy's nanargmax/nanargmin pick the first extreme).
+    rng = np.random.default_rng(31)
+    for trial in range(600):
+        p = rng.gamma(1.0, 100.0, 24) * (rng.random() * 10) ** rng.integers(-3, 4)
+        if trial % 3 == 0:
+            p[rng.random(24) < 0.3] = np.nan
+        if trial % 11 == 0:
+            p = np.round(p / 50.0) * 50.0  # ties: the first extreme wins
+        for width in (5, 10, 1, 24):
+            w = R._circular_window_means(p, width)
+            expected = np.array([np.mean(np.take(p, range(i, i + width), mode="wrap")) for i in range(24)])
+            np.testing.assert_allclose(w, expected, rtol=1e-12, equal_nan=True)
+            if not np.isnan(w).all():
+                assert R._first_max(w) == int(np.nanargmax(w))
+                assert R._first_min(w) == int(np.nanargmin(w))
+
+
+def test_timestamp_value_is_nanoseconds_whatever_the_unit():
+    # _hour_runs reads Timestamp.value as ns since the epoch (pandas 2 keeps .value in ns for every unit).
+    for unit in ("s", "ms", "us", "ns"):
+        for text in ("2026-03-09 11:59:00", "1970-01-01", "1900-02-28 23:59:59", "2261-12-31 23:00"):
+            ts = pd.Timestamp(text, tz="Europe/Berlin").as_unit(unit)
+            assert ts.value == ts.as_unit("ns").value
