@@ -229,3 +229,13 @@ def test_timestamp_value_is_nanoseconds_whatever_the_unit():
         for text in ("2026-03-09 11:59:00", "1970-01-01", "1900-02-28 23:59:59", "2261-12-31 23:00"):
             ts = pd.Timestamp(text, tz="Europe/Berlin").as_unit(unit)
             assert ts.value == ts.as_unit("ns").value
+
+
+@pytest.mark.parametrize("tz", ["Europe/Berlin", "Australia/Lord_Howe", "America/St_Johns", "Asia/Kolkata", "UTC"])
+def test_zone_offsets_are_pandas_utcoffset_at_each_instant(tz):
+    # The hour bins rest on the zone's UTC offset at each instant (30-min zones and half-hour DST included).
+    rng = np.random.default_rng(2)
+    lo, hi = pd.Timestamp("1901-01-01", tz="UTC").value, pd.Timestamp("2100-01-01", tz="UTC").value
+    u = np.sort(rng.integers(lo, hi, 300, dtype=np.int64))
+    expected = [int(pd.Timestamp(x, tz="UTC").tz_convert(tz).utcoffset().total_seconds()) * 10**9 for x in u]
+    assert R._ask_offsets(u, pd.Timestamp(0, tz=tz).tz).tolist() == expected

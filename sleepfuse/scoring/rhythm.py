@@ -35,8 +35,9 @@ def _ask_offsets(utc_ns: np.ndarray, tz) -> np.ndarray:
 
     Called on about one instant per hour of a recording (``_offset_segments``),
     so building the indexes costs well under a millisecond per participant."""
-    idx = pd.DatetimeIndex(utc_ns.astype("datetime64[ns]")).tz_localize("UTC").tz_convert(tz)
-    return idx.tz_localize(None).as_unit("ns").asi8 - utc_ns
+    u = np.asarray(utc_ns, dtype=np.int64)
+    local = pd.DatetimeIndex(u.view("datetime64[ns]"), tz="UTC").tz_convert(tz).tz_localize(None)
+    return local.as_unit("ns").asi8 - u
 
 
 def _offset_segments(u0: int, step_ns: int, n: int, tz) -> list[tuple[int, int, int]]:
