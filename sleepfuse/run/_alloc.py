@@ -2,8 +2,9 @@
 
 Scoring one participant allocates and frees dozens of arrays of a few hundred
 kB. glibc serves each of those with a fresh ``mmap`` and returns it on
-``free``, so every array costs its page faults again (about 1 ms of a ~12 ms
-participant, measured with benchmarks/bench_batch.py). Raising the mmap and
+``free``, so every array costs its page faults again (0.6-1.1 ms of a ~9 ms
+participant, benchmarks/bench_fast_paths.py; about 8% of the CPU of a whole
+``sleepfuse batch --workers 2`` of the 200-participant cohort). Raising the mmap and
 trim thresholds keeps freed blocks in the heap for reuse. Peak memory is
 unchanged in kind: it is the largest participant's working set, which the
 process would touch anyway; it does not grow with the number of participants.
