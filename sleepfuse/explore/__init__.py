@@ -14,8 +14,8 @@ an :class:`ExploreResult` with the BIC table, membership and cluster sizes out).
 _EXPORTS = {
     "BLOCKS": "columns", "ColumnSet": "columns", "PreparedData": "columns", "column_sets": "columns",
     "prepare": "columns", "FAMILIES": "names", "EXPLORATORY_CAUTION": "names", "MixtureFit": "mixtures",
-    "fit_mixture": "mixtures", "fit_mixtures": "mixtures", "BlockResult": "selection",
-    "ExploreResult": "selection", "HoldoutResult": "selection", "adjusted_rand_index": "selection",
+    "fit_mixture": "mixtures", "fit_mixtures": "mixtures", "preferred_fit": "mixtures", "BlockResult": "selection",
+    "ExploreResult": "selection", "HoldoutResult": "holdout", "adjusted_rand_index": "selection",
     "explore": "selection", "explore_block": "selection",
 }
 __all__ = sorted(_EXPORTS)

@@ -18,7 +18,7 @@ import pandas as pd
 from sleepfuse.model.errors import ConfigError
 from sleepfuse.explore.columns import BLOCKS, PARTICIPANT
 from sleepfuse.explore.names import EXPLORATORY_CAUTION, FAMILIES
-from sleepfuse.explore.output import write_csv_atomic
+from sleepfuse.output.files import write_csv as write_csv_atomic
 
 if TYPE_CHECKING:
     from sleepfuse.explore.selection import ExploreResult

@@ -18,8 +18,9 @@ import numpy as np
 from scipy.special import log_ndtr
 from scipy.stats import skew
 
-from sleepfuse.explore.output import write_atomic
-from sleepfuse.explore.selection import EXPLORATORY_CAUTION, BlockResult, ExploreResult, preferred_fit
+from sleepfuse.output.files import write_with as write_atomic
+from sleepfuse.explore.mixtures import preferred_fit
+from sleepfuse.explore.selection import EXPLORATORY_CAUTION, BlockResult, ExploreResult
 from sleepfuse.explore.skewnormal import LOG_2, gaussian_logpdf
 
 FAMILY_STYLE = {"gaussian": ("#3b6ea8", "o", "Gaussian"), "skewnormal": ("#c2571a", "s", "skew-normal")}

@@ -10,12 +10,45 @@ for checking a cluster solution out of sample; see Hennig 2007, *Comput Stat Dat
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from sleepfuse.model.errors import ConfigError
 from sleepfuse.explore.columns import PreparedData
-from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures
-from sleepfuse.explore.selection import HoldoutResult, preferred_fit
+from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures, preferred_fit
+
+
+@dataclass
+class HoldoutResult:
+    """Whether the development sample's preferred (family, K) is found again in the validation sample."""
+
+    fraction: float
+    seed: int
+    n_development: int
+    n_validation: int
+    development: tuple[str, int] | None
+    validation: tuple[str, int] | None
+    validation_fits: list[MixtureFit]
+    validation_loglik: float          # development-preferred model on the validation sample (dev z-scale)
+
+    @property
+    def holds(self) -> bool:
+        return self.development is not None and self.development == self.validation
+
+    def summary(self, block: str) -> dict:
+        dev, val = self.development or (None, None), self.validation or (None, None)
+        return {
+            "block": block, "fraction": self.fraction, "seed": self.seed,
+            "n_development": self.n_development, "n_validation": self.n_validation,
+            "development_family": dev[0], "development_K": dev[1],
+            "validation_family": val[0], "validation_K": val[1],
+            "family_holds": dev[0] is not None and dev[0] == val[0],
+            "K_holds": dev[1] is not None and dev[1] == val[1], "holds": self.holds,
+            "validation_loglik_of_development_model": self.validation_loglik,
+            "validation_loglik_per_participant": (self.validation_loglik / self.n_validation
+                                                  if self.n_validation else np.nan),
+        }
 
 
 def split_participants(n: int, fraction: float, seed: int) -> tuple[np.ndarray, np.ndarray]:

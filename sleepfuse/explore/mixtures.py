@@ -332,6 +332,19 @@ def fit_mixture(
     return fit
 
 
+def preferred_fit(fits: list[MixtureFit]) -> MixtureFit | None:
+    """The usable fit with the smallest BIC among those that converged; None when nothing could be fitted.
+
+    A fit that stopped at the iteration limit is never preferred over one that converged; only
+    when no usable fit converged is the smallest-BIC unconverged one returned (its
+    ``converged`` is False, and front ends say so).
+    """
+    usable = [f for f in fits if f.ok]
+    converged = [f for f in usable if f.converged]
+    pool = converged or usable
+    return min(pool, key=lambda f: f.bic) if pool else None
+
+
 def fit_mixtures(
     x: np.ndarray,
     families: tuple[str, ...] = FAMILIES,

@@ -20,9 +20,12 @@ import numpy as np
 import pandas as pd
 
 from sleepfuse.explore.columns import ColumnSet, PreparedData, column_sets, columns_by_pattern, prepare
-from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures
+from sleepfuse.explore.holdout import HoldoutResult, run_holdout, split_participants
+from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures, preferred_fit
 
 from sleepfuse.explore.names import EXPLORATORY_CAUTION  # noqa: E402,F401  (re-exported)
+
+__all__ = ["HoldoutResult", "preferred_fit", "EXPLORATORY_CAUTION"]
 MODEL_COLUMNS = ["block", "set", "family", "K", "loglik", "n_params", "BIC", "converged", "n_iter", "message"]
 MEMBERSHIP_COLUMNS = ["participant", "block", "set", "family", "K", "cluster", "probability", "reason"]
 
@@ -35,12 +38,6 @@ def models_table(fits: list[MixtureFit], block: str = "", set_name: str = "all")
         "converged": bool(f.converged), "n_iter": f.n_iter, "message": f.message,
     } for f in fits]
     return pd.DataFrame(rows, columns=MODEL_COLUMNS)
-
-
-def preferred_fit(fits: list[MixtureFit]) -> MixtureFit | None:
-    """The usable fit with the smallest BIC, or None when nothing could be fitted."""
-    usable = [f for f in fits if f.ok]
-    return min(usable, key=lambda f: f.bic) if usable else None
 
 
 def adjusted_rand_index(labels_a, labels_b) -> float:
@@ -68,38 +65,6 @@ def adjusted_rand_index(labels_a, labels_b) -> float:
     expected = row * col / (n * (n - 1.0) / 2.0)
     maximum = 0.5 * (row + col)
     return float((index - expected) / (maximum - expected)) if maximum != expected else 0.0
-
-
-@dataclass
-class HoldoutResult:
-    """Whether the development sample's preferred (family, K) is found again in the validation sample."""
-
-    fraction: float
-    seed: int
-    n_development: int
-    n_validation: int
-    development: tuple[str, int] | None
-    validation: tuple[str, int] | None
-    validation_fits: list[MixtureFit]
-    validation_loglik: float          # development-preferred model on the validation sample (dev z-scale)
-
-    @property
-    def holds(self) -> bool:
-        return self.development is not None and self.development == self.validation
-
-    def summary(self, block: str) -> dict:
-        dev, val = self.development or (None, None), self.validation or (None, None)
-        return {
-            "block": block, "fraction": self.fraction, "seed": self.seed,
-            "n_development": self.n_development, "n_validation": self.n_validation,
-            "development_family": dev[0], "development_K": dev[1],
-            "validation_family": val[0], "validation_K": val[1],
-            "family_holds": dev[0] is not None and dev[0] == val[0],
-            "K_holds": dev[1] is not None and dev[1] == val[1], "holds": self.holds,
-            "validation_loglik_of_development_model": self.validation_loglik,
-            "validation_loglik_per_participant": (self.validation_loglik / self.n_validation
-                                                  if self.n_validation else np.nan),
-        }
 
 
 @dataclass
@@ -232,8 +197,6 @@ def explore_block(
     **fit_options,
 ) -> BlockResult:
     """Fit every (family, K ≤ kmax) to one prepared column set; with ``holdout`` split it first."""
-    from sleepfuse.explore.holdout import run_holdout, split_participants
-
     notes = list(data.notes)
     n, d = data.raw.shape
     if d and n < 10 * d:

@@ -9,7 +9,7 @@ import contextlib
 import os
 import tempfile
 from pathlib import Path
-from typing import Iterable, Iterator
+from typing import Callable, Iterable, Iterator
 
 
 @contextlib.contextmanager
@@ -67,3 +67,15 @@ def write_text(path: str | Path, text: str) -> Path:
         with open(tmp, "w", encoding="utf-8", newline="") as fh:
             fh.write(text)
     return Path(path)
+
+
+def write_with(path: str | Path, write: Callable[[Path], None]) -> Path:
+    """Call ``write(tmp_path)`` for a temporary file beside ``path``, then move it into place."""
+    with atomic_path(path) as tmp:
+        write(tmp)
+    return Path(path)
+
+
+def write_csv(frame, path: str | Path) -> Path:
+    """Write a DataFrame as CSV (no index) atomically."""
+    return write_with(path, lambda tmp: frame.to_csv(tmp, index=False))
