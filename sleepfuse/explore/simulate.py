@@ -65,3 +65,43 @@ def demo_matrix(n: int = 90, seed: int = 3) -> pd.DataFrame:
     frame.loc[rng.choice(n, size=3, replace=False), ["psg_sol_min_mean", "psg_waso_min_mean"]] = np.nan
     frame.loc[rng.choice(n, size=2, replace=False), "diary_tst_min_mean"] = np.nan
     return frame
+
+
+HIDDEN_INFORMATIVE = ("diary_sol_min_mean", "actigraphy_sol_min_mean", "psg_sol_min_mean")
+
+
+def hidden_subgroup_cohort(n: int = 200, n_noise: int = 9, seed: int = 17,
+                           label_agreement: float = 0.9) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """An invented cohort whose subgroup (about 35 %) shows only in the three latency columns.
+
+    Every column is right-skewed (skew-normal draws, minutes or percent); ``n_noise``
+    further columns carry no subgroup, and two of them are correlated with a latency column
+    within the groups, so only a method that regresses a candidate on the chosen columns
+    leaves them out. Returns (matrix, participants): the participants table holds ``truth``
+    (the hidden subgroup, for tests), an a-priori ``reported_group`` that agrees with it for
+    ``label_agreement`` of participants, and two columns unrelated to it (``site``, ``age``).
+    """
+    rng = np.random.default_rng(seed)
+    group = rng.random(n) < 0.35
+    ids = np.array([f"C{i:03d}" for i in range(1, n + 1)])
+    cols: dict[str, np.ndarray] = {"participant": ids}
+    for j, name in enumerate(HIDDEN_INFORMATIVE):
+        base = sample(n, [10.0], [[8.0**2]], [4.0], rng)[:, 0]
+        cols[name] = np.round(np.maximum(base + np.where(group, 30.0 - 4 * j, 0.0), 0.0), 1)
+    shapes = {"waso_min": (15.0, 20.0, 4.0), "tst_min": (450.0, 45.0, -3.0), "se_pct": (94.0, 6.0, -4.0),
+              "awakenings": (1.0, 2.0, 4.0)}                      # location, scale, shape
+    noise = [(f"{src}_{par}_mean", shapes[par]) for par in shapes for src in ("diary", "actigraphy", "psg")]
+    for j, (name, (loc, scale, shape)) in enumerate(noise[:n_noise]):
+        value = sample(n, [loc], [[scale**2]], [shape], rng)[:, 0]
+        if j < 2:   # correlated with a latency column, but no subgroup of its own beyond it
+            value = value + 0.5 * cols[HIDDEN_INFORMATIVE[j]]
+        cols[name] = np.round(value, 1)
+    matrix = pd.DataFrame(cols)
+    flip = rng.random(n) > label_agreement
+    reported = np.where(group ^ flip, "insomnia", "none")
+    participants = pd.DataFrame({
+        "participant": ids, "truth": np.where(group, 2, 1), "reported_group": reported,
+        "site": rng.choice(["north", "south", "east"], size=n),
+        "age": np.round(rng.uniform(20, 70, size=n), 0),
+    })
+    return matrix, participants
