@@ -1,9 +1,14 @@
 """``sleepfuse explore``: the clustering preview of a participant × feature matrix, headless.
 
 Writes models.csv, membership.csv, standardisation.csv, agreement_between_blocks.csv (when
-several blocks), holdout.csv (with --holdout) and the bic/solution figures (PNG + SVG)
-into --out, atomically; a short summary goes to stdout, progress and problems to stderr.
-Exit status: 0 done, 2 bad command line or unreadable matrix, 1 nothing could be fitted.
+several blocks), holdout.csv (with --holdout), selected_columns.csv and selection_steps.csv
+(with --select), outcomes.csv, profiles.csv and participants_without_outcomes.csv (with
+--outcomes) and the bic/solution figures (PNG + SVG) into --out, atomically.
+
+Messages: progress and the summary go to stdout, once each; only errors go to stderr.
+Exit status: 0 a model was fitted and every output written; 1 nothing could be fitted (the
+tables saying why are written, no figures); 2 bad command line or unreadable input, or the
+output folder cannot be written.
 """
 
 from __future__ import annotations
@@ -17,7 +22,8 @@ import pandas as pd
 
 from sleepfuse.model.errors import ConfigError
 from sleepfuse.explore.columns import BLOCKS, PARTICIPANT
-from sleepfuse.explore.names import EXPLORATORY_CAUTION, FAMILIES
+from sleepfuse.explore.names import (DEFAULT_KMAX, DEFAULT_MAX_ITER, DEFAULT_STARTS, EXPLORATORY_CAUTION,
+                                      FAMILIES)
 from sleepfuse.output.files import write_csv as write_csv_atomic
 
 if TYPE_CHECKING:
@@ -40,22 +46,33 @@ def add_explore_parser(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--log", metavar="COLUMNS",
                    help="names or glob patterns of columns fitted as ln(1 + x), for strongly right-skewed "
                         "minutes such as '*_sol_min_mean,*_waso_min_mean'")
-    p.add_argument("--kmax", type=int, default=5, help="largest number of clusters tried (default 5)")
-    p.add_argument("--starts", type=int, default=10, help="seeded EM starts per model (default 10)")
+    p.add_argument("--kmax", type=int, default=DEFAULT_KMAX,
+                   help=f"largest number of clusters tried (default {DEFAULT_KMAX})")
+    p.add_argument("--starts", type=int, default=DEFAULT_STARTS,
+                   help=f"seeded EM starts per model (default {DEFAULT_STARTS})")
     p.add_argument("--seed", type=int, default=0, help="seed of the starts and of the holdout split (default 0)")
     p.add_argument("--holdout", type=float, metavar="FRACTION",
                    help="keep this fraction of participants as a validation sample, e.g. 0.3")
     p.add_argument("--families", default=",".join(FAMILIES),
                    help=f"comma-separated mixture families (default {','.join(FAMILIES)})")
-    p.add_argument("--max-iter", type=int, default=1000, dest="max_iter",
-                   help="EM iterations per start before giving up on convergence (default 1000)")
+    p.add_argument("--max-iter", type=int, default=DEFAULT_MAX_ITER, dest="max_iter",
+                   help=f"EM iterations per start before giving up on convergence (default {DEFAULT_MAX_ITER})")
+    p.add_argument("--select", action="store_true",
+                   help="choose the columns first by stepwise BIC (Raftery & Dean 2006), within each block")
+    p.add_argument("--keep", metavar="COLUMNS", help="names or glob patterns of columns --select always keeps")
+    p.add_argument("--outcomes", metavar="TABLE.csv",
+                   help="CSV with a 'participant' column and a-priori labels or outcomes to relate to the clusters")
     p.add_argument("--out", required=True, metavar="DIR", help="folder for the outputs (created if needed)")
     p.set_defaults(func=run_explore)
     return p
 
 
 def _say(message: str) -> None:
-    print(f"sleepfuse explore: {message}", file=sys.stderr, flush=True)
+    print(f"sleepfuse explore: {message}", flush=True)
+
+
+def _error(message: str) -> None:
+    print(f"sleepfuse explore: error: {message}", file=sys.stderr, flush=True)
 
 
 def _check_options(args) -> tuple[str, ...]:
@@ -69,7 +86,7 @@ def _check_options(args) -> tuple[str, ...]:
         raise ConfigError("--kmax", args.kmax, "a whole number of at least 1")
     if args.starts < 1:
         raise ConfigError("--starts", args.starts, "a whole number of at least 1")
-    if getattr(args, "max_iter", 1000) < 1:
+    if getattr(args, "max_iter", DEFAULT_MAX_ITER) < 1:
         raise ConfigError("--max-iter", args.max_iter, "a whole number of at least 1")
     if args.holdout is not None and not 0.0 < args.holdout < 1.0:
         raise ConfigError("--holdout", args.holdout, "a fraction strictly between 0 and 1, e.g. 0.3")
@@ -94,8 +111,8 @@ def read_matrix(path: str | Path) -> pd.DataFrame:
     return matrix
 
 
-def write_outputs(result: ExploreResult, out: str | Path) -> list[Path]:
-    """All tables and figures of a run into ``out``, each written atomically."""
+def write_outputs(result: ExploreResult, out: str | Path, outcomes: pd.DataFrame | None = None) -> list[Path]:
+    """All tables of a run into ``out``, and its figures when a model was fitted, each written atomically."""
     out = Path(out)
     written = [
         write_csv_atomic(result.models, out / "models.csv"),
@@ -108,6 +125,21 @@ def write_outputs(result: ExploreResult, out: str | Path) -> list[Path]:
     holdouts = [b.holdout.summary(b.name) for b in result.blocks if b.holdout is not None]
     if holdouts:
         written.append(write_csv_atomic(pd.DataFrame(holdouts), out / "holdout.csv"))
+    selections = [b.selection for b in result.blocks if b.selection is not None]
+    if selections:
+        written.append(write_csv_atomic(pd.concat([s.columns_table() for s in selections], ignore_index=True),
+                                        out / "selected_columns.csv"))
+        written.append(write_csv_atomic(pd.concat([s.steps_table() for s in selections], ignore_index=True),
+                                        out / "selection_steps.csv"))
+    if outcomes is not None:
+        from sleepfuse.explore.outcomes import relate_blocks
+
+        tables, profiles, missing = relate_blocks(result, outcomes)
+        written.append(write_csv_atomic(tables, out / "outcomes.csv"))
+        written.append(write_csv_atomic(profiles, out / "profiles.csv"))
+        written.append(write_csv_atomic(missing, out / "participants_without_outcomes.csv"))
+    if not result.any_fitted:
+        return written
     from sleepfuse.explore.figures import plot_bic, plot_solution
 
     written += plot_bic(result, out / "bic")
@@ -130,11 +162,15 @@ def summary_lines(result: ExploreResult) -> list[str]:
             lines.append(f"  note: {note}")
         best = block.preferred
         if best is None:
-            lines.append("  no model could be fitted (see models.csv, column message)")
+            reasons = sorted({m for m in block.models["message"] if m}) or ["no usable column"]
+            lines.append("  no model could be fitted: " + "; ".join(reasons[:2]))
             continue
         sizes = ", ".join(f"{int(r.n_assigned)}" for r in block.cluster_sizes.itertuples())
         lines.append(f"  preferred by BIC: {best.family}, K={best.n_components} "
                      f"(BIC {best.bic:.1f}); cluster sizes {sizes}")
+        if not best.converged:
+            lines.append(f"  WARNING: the preferred fit did not converge ({best.message}); no fit converged, "
+                         "so treat it with care (try --max-iter, fewer columns or --log)")
         table = block.models
         table = table[table["set"] != "validation"]
         for family, rows in table.groupby("family", sort=False):
@@ -152,7 +188,28 @@ def summary_lines(result: ExploreResult) -> list[str]:
             note = f" ({r.note})" if r.note else ""
             lines.append(f"agreement {r.block_a} vs {r.block_b}: adjusted Rand index {ari} "
                          f"over {r.n_participants} participants{note}")
+    if any(b.selection is not None for b in result.blocks):
+        from sleepfuse.explore.varselect import SELECTION_CAUTION
+
+        lines.append(SELECTION_CAUTION)
     lines.append(EXPLORATORY_CAUTION)
+    return lines
+
+
+def outcome_lines(tests: pd.DataFrame, missing: pd.DataFrame) -> list[str]:
+    """One line per outcome (test, p, effect, ARI), and who is missing from the outcomes table."""
+    lines = []
+    for r in tests.itertuples():
+        if not r.test:
+            lines.append(f"  [{r.block}] {r.outcome}: {r.note}")
+            continue
+        p = "< 0.001" if r.p < 0.001 else f"{r.p:.3f}"
+        ari = f", ARI {r.ari:.2f}" if pd.notna(r.ari) else ""
+        lines.append(f"  [{r.block}] {r.outcome} ({r.kind}, n={r.n}): {r.test} {r.statistic:.2f}, p {p}, "
+                     f"{r.effect_name} {r.effect:.2f}{ari}")
+    for block, rows in missing.groupby("block", sort=False):
+        who = ", ".join(rows["participant"].head(10)) + (" ..." if len(rows) > 10 else "")
+        lines.append(f"  [{block}] {len(rows)} clustered participant(s) not in the outcomes table: {who}")
     return lines
 
 
@@ -160,30 +217,37 @@ def run_explore(args) -> int:
     """Run the explore command from parsed arguments; returns the exit status."""
     from sleepfuse.explore.selection import explore
 
+    from sleepfuse.explore.outcomes import read_outcomes
+
     try:
         families = _check_options(args)
         matrix = read_matrix(args.matrix)
+        outcomes = read_outcomes(args.outcomes) if getattr(args, "outcomes", None) else None
         result = explore(matrix, args.columns, args.blocks, families=families, kmax=args.kmax,
                          starts=args.starts, seed=args.seed, holdout=args.holdout, progress=_say,
-                         log=getattr(args, "log", None), max_iter=getattr(args, "max_iter", 1000))
+                         log=getattr(args, "log", None), max_iter=getattr(args, "max_iter", DEFAULT_MAX_ITER),
+                         select=getattr(args, "select", False), keep=getattr(args, "keep", None))
     except ConfigError as exc:
-        _say(f"error: {exc}")
+        _error(str(exc))
         return 2
-    for block in result.blocks:
-        for note in block.notes:
-            _say(f"{block.name}: {note}")
-        for row in block.models.itertuples():
-            if row.message:
-                _say(f"{block.name} {row.set} {row.family} K={row.K}: {row.message}")
     try:
-        written = write_outputs(result, args.out)
+        written = write_outputs(result, args.out, outcomes)
     except OSError as exc:
-        _say(f"error: cannot write to {args.out}: {exc}")
+        _error(f"cannot write to {args.out}: {exc}")
         return 2
     for line in summary_lines(result):
         print(line)
+    if outcomes is not None and result.any_fitted:
+        tests = pd.read_csv(Path(args.out) / "outcomes.csv", keep_default_na=False, na_values=[""])
+        missing = pd.read_csv(Path(args.out) / "participants_without_outcomes.csv", dtype=str)
+        print("clusters against the outcomes table:")
+        for line in outcome_lines(tests, missing):
+            print(line)
+    if not result.any_fitted:
+        _say(f"nothing could be fitted; wrote {len(written)} tables saying why (no figures) to {args.out}")
+        return 1
     _say(f"wrote {len(written)} files to {args.out}")
-    return 0 if result.any_fitted else 1
+    return 0
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -130,6 +130,13 @@ class PreparedData:
                             raw.mean(axis=0), raw.std(axis=0, ddof=1), self.excluded, list(self.notes),
                             self.logged)
 
+    def with_columns(self, columns) -> PreparedData:
+        """The same participants and z-scale for some of the columns (in this set's order)."""
+        idx = [i for i, c in enumerate(self.columns) if c in set(columns)]
+        return PreparedData(self.column_set, tuple(self.columns[i] for i in idx), self.participants,
+                            self.raw[:, idx], self.means[idx], self.sds[idx], self.excluded, list(self.notes),
+                            tuple(c for c in self.logged if c in set(columns)))
+
     def standardisation(self) -> pd.DataFrame:
         """column, transform, mean, sd (on the transformed scale), n: what lies behind the z-scores."""
         return pd.DataFrame({"block": self.column_set, "column": list(self.columns),

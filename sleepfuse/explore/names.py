@@ -5,3 +5,8 @@ EXPLORATORY_CAUTION = (
     "Clustering is exploratory: it generates hypotheses, and any subgroup needs "
     "confirmation in a separate validation sample."
 )
+
+# Defaults shared by the command line and the app's clusters screen.
+DEFAULT_KMAX = 5
+DEFAULT_STARTS = 10
+DEFAULT_MAX_ITER = 5000   # skew-normal ECM often needs 1,000-2,500 iterations to meet the relative tolerance

@@ -21,6 +21,7 @@ import pandas as pd
 
 from sleepfuse.explore.columns import ColumnSet, PreparedData, column_sets, columns_by_pattern, prepare
 from sleepfuse.explore.holdout import HoldoutResult, run_holdout, split_participants
+from sleepfuse.explore.varselect import Selection, select_columns
 from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures, preferred_fit
 
 from sleepfuse.explore.names import EXPLORATORY_CAUTION  # noqa: E402,F401  (re-exported)
@@ -77,6 +78,12 @@ class BlockResult:
     validation: PreparedData | None = None
     holdout: HoldoutResult | None = None
     notes: list[str] = field(default_factory=list)
+    selection: Selection | None = None
+
+    @property
+    def set_name(self) -> str:
+        """How the models' participants and columns were chosen: all, development or selected."""
+        return "development" if self.holdout else "selected" if self.selection else "all"
 
     @property
     def preferred(self) -> MixtureFit | None:
@@ -85,7 +92,7 @@ class BlockResult:
     @property
     def models(self) -> pd.DataFrame:
         """The BIC table: one row per (set, family, K)."""
-        tables = [models_table(self.fits, self.name, "development" if self.holdout else "all")]
+        tables = [models_table(self.fits, self.name, self.set_name)]
         if self.holdout:
             tables.append(models_table(self.holdout.validation_fits, self.name, "validation"))
         return pd.concat(tables, ignore_index=True)
@@ -101,7 +108,7 @@ class BlockResult:
         """participant, block, set, family, K, cluster (1..K), probability; left-out participants with a reason."""
         best = self.preferred
         frames = []
-        sets = [("development" if self.holdout else "all", self.data.participants, self.data.z)]
+        sets = [(self.set_name, self.data.participants, self.data.z)]
         if self.validation is not None and len(self.validation.participants):
             sets.append(("validation", self.validation.participants, self.data.standardise(self.validation.raw)))
         if best is not None:
@@ -194,9 +201,17 @@ def explore_block(
     kmax: int = 5,
     holdout: float | None = None,
     seed: int = 0,
+    select: bool = False,
+    keep: tuple[str, ...] = (),
+    progress: Callable[[str], None] | None = None,
     **fit_options,
 ) -> BlockResult:
-    """Fit every (family, K ≤ kmax) to one prepared column set; with ``holdout`` split it first."""
+    """Fit every (family, K ≤ kmax) to one prepared column set; with ``holdout`` split it first.
+
+    With ``select`` the columns are first chosen by stepwise BIC (``varselect``, Raftery &
+    Dean 2006) on the development participants, with the skew-normal family when it is
+    among ``families`` (else the Gaussian), always keeping ``keep``.
+    """
     notes = list(data.notes)
     n, d = data.raw.shape
     if d and n < 10 * d:
@@ -204,16 +219,29 @@ def explore_block(
                      f"column (common practice: at least 10 per column); consider fewer columns with --columns")
     if not data.columns:
         return BlockResult(data.column_set, data, [], notes=notes + ["no usable column"])
+    selection = None
+    development, validation = data, None
     if holdout:
         dev_idx, val_idx = split_participants(len(data.participants), holdout, seed)
         development, validation = data.subset(dev_idx), data.subset(val_idx)
+    if select and len(data.columns) > 1:
+        family = "skewnormal" if "skewnormal" in families else families[0]
+        selection = select_columns(development.z, development.columns, family=family, kmax=kmax, keep=keep,
+                                   block=data.column_set, seed=seed, progress=progress)
+        notes.append(f"{len(selection.chosen)} of {len(data.columns)} column(s) selected by "
+                     f"{family} stepwise BIC: {', '.join(selection.chosen)}")
+        development = development.with_columns(selection.chosen)
+        validation = validation.with_columns(selection.chosen) if validation is not None else None
+        data = data.with_columns(selection.chosen)
+    if holdout:
         fits = fit_mixtures(development.z, families, kmax, seed=seed, **fit_options)
-        result = BlockResult(data.column_set, development, fits, validation=validation, notes=notes)
+        result = BlockResult(data.column_set, development, fits, validation=validation, notes=notes,
+                             selection=selection)
         result.holdout = run_holdout(development, validation, preferred_fit(fits), holdout,
                                      families=families, kmax=kmax, seed=seed, **fit_options)
         return result
     fits = fit_mixtures(data.z, families, kmax, seed=seed, **fit_options)
-    return BlockResult(data.column_set, data, fits, notes=notes)
+    return BlockResult(data.column_set, data, fits, notes=notes, selection=selection)
 
 
 def explore(
@@ -227,6 +255,8 @@ def explore(
     seed: int = 0,
     holdout: float | None = None,
     log: str | None = None,
+    select: bool = False,
+    keep: str | None = None,
     progress: Callable[[str], None] | None = None,
     **fit_options,
 ) -> ExploreResult:
@@ -239,6 +269,7 @@ def explore(
     """
     sets: list[ColumnSet] = column_sets(list(matrix.columns), columns, blocks)
     logged = set(columns_by_pattern(list(matrix.columns), log)) if log else set()
+    kept = tuple(columns_by_pattern(list(matrix.columns), keep)) if keep else ()
     results = []
     for cs in sets:
         data = prepare(matrix, cs, logged)
@@ -246,6 +277,6 @@ def explore(
             progress(f"{cs.name}: {len(data.participants)} participant(s), {len(data.columns)} column(s), "
                      f"{len(data.excluded)} left out for missing values")
         results.append(explore_block(data, families=families, kmax=kmax, holdout=holdout, seed=seed,
-                                     starts=starts, **fit_options))
+                                     select=select, keep=kept, progress=progress, starts=starts, **fit_options))
     return ExploreResult(results, agreement_between_blocks(results) if len(results) > 1 else
                          agreement_between_blocks([]))

@@ -99,9 +99,10 @@ def hidden_subgroup_cohort(n: int = 200, n_noise: int = 9, seed: int = 17,
     matrix = pd.DataFrame(cols)
     flip = rng.random(n) > label_agreement
     reported = np.where(group ^ flip, "insomnia", "none")
+    other = np.random.default_rng([seed, 1])          # independent of the subgroup by construction
     participants = pd.DataFrame({
         "participant": ids, "truth": np.where(group, 2, 1), "reported_group": reported,
-        "site": rng.choice(["north", "south", "east"], size=n),
-        "age": np.round(rng.uniform(20, 70, size=n), 0),
+        "site": other.choice(["north", "south", "east"], size=n),
+        "age": np.round(other.uniform(20, 70, size=n), 0),
     })
     return matrix, participants
