@@ -159,8 +159,24 @@ def test_unreadable_matrices_exit_2(tmp_path, capsys):
 def test_nothing_fitted_exits_1_and_says_why(tmp_path, capsys):
     demo_matrix(n=6).to_csv(tmp_path / "m.csv", index=False)
     assert _run([str(tmp_path / "m.csv"), "--blocks", "diary", "--kmax", "2", "--out", str(tmp_path / "out")]) == 1
-    assert "too few participants" in capsys.readouterr().err
+    printed = capsys.readouterr()
+    # One stream for messages (issue 19 item 4): the reason is printed once, on stdout; exit 1
+    # means tables saying why were written and no figure.
+    assert "too few participants" in printed.out and printed.err == ""
+    assert "nothing could be fitted" in printed.out
     assert (tmp_path / "out" / "models.csv").exists()
+    assert not list((tmp_path / "out").glob("*.png")) and not list((tmp_path / "out").glob("*.svg"))
+
+
+def test_messages_are_printed_once_and_success_exits_0(tmp_path, capsys):
+    demo_matrix().to_csv(tmp_path / "m.csv", index=False)
+    code = _run([str(tmp_path / "m.csv"), "--columns", "diary_sol_min_mean,diary_tst_min_mean", "--kmax", "2",
+                 "--starts", "2", "--out", str(tmp_path / "out")])
+    printed = capsys.readouterr()
+    assert code == 0 and printed.err == ""
+    lines = [line for line in printed.out.splitlines() if line.strip()]
+    assert len(lines) == len(set(lines))
+    assert (tmp_path / "out" / "bic.png").exists()
 
 
 def test_importing_the_command_loads_neither_textual_nor_matplotlib():

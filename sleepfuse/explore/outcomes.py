@@ -63,7 +63,7 @@ def cramers_v(table: np.ndarray) -> tuple[float, float, float]:
     return float(chi2), float(p), float(v)
 
 
-def test_outcome(clusters: np.ndarray, values: pd.Series, name: str) -> dict:
+def outcome_row(clusters: np.ndarray, values: pd.Series, name: str) -> dict:
     """One row of outcomes.csv for one outcome column over the participants with a value."""
     ok = values.notna().to_numpy()
     cl, v = clusters[ok], values[ok]
@@ -102,7 +102,7 @@ def relate(labels: dict[str, int], outcomes: pd.DataFrame, block: str = "") -> t
     clusters = np.array([labels[p] for p in who])
     rows = []
     for column in table.columns:
-        row = test_outcome(clusters, table.loc[who, column], str(column))
+        row = outcome_row(clusters, table.loc[who, column], str(column))
         row["block"] = block
         rows.append(row)
     return pd.DataFrame(rows).reindex(columns=OUTCOME_COLUMNS), missing
