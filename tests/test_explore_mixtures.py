@@ -175,3 +175,34 @@ def test_posterior_rows_sum_to_one():
     post = fit.posterior(x)
     np.testing.assert_allclose(post.sum(axis=1), 1.0)
     assert post.shape == (100, 2)
+
+
+def _sklearn_matrices():
+    from sleepfuse.explore.simulate import hidden_subgroup_cohort, skewed_one_cluster_matrix
+
+    for frame in (skewed_one_cluster_matrix().iloc[:, 1:4], hidden_subgroup_cohort()[0].iloc[:, 1:7]):
+        x = frame.dropna().to_numpy(float)
+        yield (x - x.mean(0)) / x.std(0, ddof=1)
+
+
+@pytest.mark.parametrize("which", [0, 1])
+def test_gaussian_optimum_is_at_least_sklearns_with_ten_inits(which):
+    # Source: sklearn.mixture.GaussianMixture (full covariance, n_init=10, k-means init). Our EM
+    # (default starts) must reach a log-likelihood at least as high at every K, up to the two
+    # stopping tolerances (1e-5 relative). A K whose sklearn optimum has a component of at most
+    # our minimum size (max(d + 1, 5) expected members, a near-singular covariance) is left out:
+    # our guard forbids it by design.
+    from sklearn.mixture import GaussianMixture
+
+    z = list(_sklearn_matrices())[which]
+    n, d = z.shape
+    compared = 0
+    for k in range(1, 6):
+        ours = fit_mixture(z, "gaussian", k)
+        ref = GaussianMixture(k, covariance_type="full", n_init=10, random_state=0, reg_covar=1e-6,
+                              tol=1e-6, max_iter=2000).fit(z)
+        if (ref.weights_ * n).min() < max(d + 1, 5) + 1:
+            continue
+        compared += 1
+        assert ours.loglik >= ref.score(z) * n - 1e-5 * abs(ours.loglik), k
+    assert compared >= 4

@@ -25,7 +25,7 @@ from scipy.special import log_ndtr
 from sleepfuse.explore import starts as _starts
 from sleepfuse.explore.skewnormal import LOG_2, LOG_2PI, shape_from_delta
 
-from sleepfuse.explore.names import DEFAULT_MAX_ITER, FAMILIES  # noqa: E402  (FAMILIES re-exported)
+from sleepfuse.explore.names import DEFAULT_MAX_ITER, DEFAULT_STARTS, FAMILIES  # noqa: E402  (FAMILIES re-exported)
 HALF_LOG_2PI = 0.5 * LOG_2PI
 
 
@@ -235,7 +235,7 @@ def fit_mixture(
     family: str,
     n_components: int,
     *,
-    starts: int = 10,
+    starts: int = DEFAULT_STARTS,
     seed: int = 0,
     tol: float = 1e-6,
     max_iter: int = DEFAULT_MAX_ITER,
@@ -243,11 +243,12 @@ def fit_mixture(
     cov_floor: float = 1e-6,
     gaussian_fit: MixtureFit | None = None,
     short_iter: int = 50,
-    keep: int = 2,
+    keep: int = 3,
 ) -> MixtureFit:
     """Fit one (family, K) mixture to standardised data x (n, d) by EM from several seeded starts.
 
-    Starts are k-means++ partitions (the same for both families); a skew-normal fit also
+    Starts are ``starts`` k-means++ partitions and as many random partitions (the same for
+    both families; Biernacki, Celeux & Govaert 2003 compare both kinds); a skew-normal fit also
     starts once next to ``gaussian_fit`` when given. Every start runs ``short_iter``
     iterations; the ``keep`` best continue to convergence (or ``max_iter``), and the one
     with the highest log-likelihood wins. ``min_component_size`` defaults to max(d + 1, 5) expected members.
@@ -267,11 +268,14 @@ def fit_mixture(
     n_starts = 1 if k_total == 1 else max(1, int(starts))
     inits: list[tuple] = []
     failures: Counter[str] = Counter()
-    for s in range(n_starts):
-        labels = _starts.kmeans_partition(x, k_total, _starts.start_rng(seed, k_total, s))
+    for s in range(2 * n_starts if k_total > 1 else 1):
+        rng = _starts.start_rng(seed, k_total, s)
+        kind = "k-means" if s < n_starts else "random-partition"
+        labels = (_starts.kmeans_partition(x, k_total, rng) if s < n_starts
+                  else _starts.random_partition(n, k_total, rng))
         sizes = np.bincount(labels, minlength=k_total)
         if sizes.min() < min(min_size, d + 1) or sizes.min() < 2:
-            failures[f"k-means start gave a cluster of fewer than {max(d + 1, 2)} members"] += 1
+            failures[f"{kind} start gave a cluster of fewer than {max(d + 1, 2)} members"] += 1
             continue
         make = _starts.skewnormal_start if family == "skewnormal" else _starts.gaussian_start
         inits.append(make(x, labels, k_total, cov_floor))
@@ -303,7 +307,7 @@ def fit_mixture(
         if i < keep:
             finished.append((params, trace, converged, floored))
     best = max(finished, key=lambda r: r[1][-1]) if finished else None
-    fit.n_starts = len(inits) + sum(v for k, v in failures.items() if k.startswith("k-means"))
+    fit.n_starts = len(inits) + sum(v for k, v in failures.items() if " start gave " in k)
     fit.n_starts_failed = sum(failures.values())
     reasons = "; ".join(f"{reason} ({count}x)" for reason, count in failures.items())
     if best is None:

@@ -8,5 +8,5 @@ EXPLORATORY_CAUTION = (
 
 # Defaults shared by the command line and the app's clusters screen.
 DEFAULT_KMAX = 5
-DEFAULT_STARTS = 10
+DEFAULT_STARTS = 20        # k-means++ starts; as many random-partition starts are added
 DEFAULT_MAX_ITER = 5000   # skew-normal ECM often needs 1,000-2,500 iterations to meet the relative tolerance

@@ -24,7 +24,7 @@ from sleepfuse.explore.holdout import HoldoutResult, run_holdout, split_particip
 from sleepfuse.explore.varselect import Selection, select_columns
 from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures, preferred_fit
 
-from sleepfuse.explore.names import EXPLORATORY_CAUTION  # noqa: E402,F401  (re-exported)
+from sleepfuse.explore.names import DEFAULT_STARTS, EXPLORATORY_CAUTION  # noqa: E402,F401  (re-exported)
 
 __all__ = ["HoldoutResult", "preferred_fit", "EXPLORATORY_CAUTION"]
 MODEL_COLUMNS = ["block", "set", "family", "K", "loglik", "n_params", "BIC", "converged", "n_iter", "message"]
@@ -251,7 +251,7 @@ def explore(
     *,
     families: tuple[str, ...] = FAMILIES,
     kmax: int = 5,
-    starts: int = 10,
+    starts: int = DEFAULT_STARTS,
     seed: int = 0,
     holdout: float | None = None,
     log: str | None = None,

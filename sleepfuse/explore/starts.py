@@ -51,6 +51,12 @@ def kmeans_partition(
     return labels
 
 
+def random_partition(n: int, n_components: int, rng: np.random.Generator) -> np.ndarray:
+    """Labels (n,) drawn uniformly from 0..K-1: a random-partition start (the partition's parts
+    have nearly equal means, so EM begins close to one component and separates from there)."""
+    return rng.integers(n_components, size=n)
+
+
 def floor_covariance(cov: np.ndarray, floor: float) -> tuple[np.ndarray, bool]:
     """Raise the smallest eigenvalue of a covariance to ``floor`` by adding ε·I; returns (cov, floored)."""
     low = float(np.linalg.eigvalsh(cov)[0])
