@@ -191,13 +191,12 @@ def test_batch_interrupted_message_names_the_files_left():
 
 @pytest.mark.parametrize("umask", [0o027, 0o002])
 def test_atomic_writes_follow_the_umask(tmp_path, umask):
-    from sleepfuse.explore.output import write_atomic
-    from sleepfuse.output.files import write_bytes, write_chunks, write_text
+    from sleepfuse.output.files import write_bytes, write_chunks, write_text, write_with
 
     old = os.umask(umask)
     try:
         paths = [write_text(tmp_path / "a.txt", "x"), write_bytes(tmp_path / "b.bin", b"x"),
-                 write_chunks(tmp_path / "c.csv", ["x"]), write_atomic(tmp_path / "d.png", lambda t: t.write_bytes(b"x"))]
+                 write_chunks(tmp_path / "c.csv", ["x"]), write_with(tmp_path / "d.png", lambda t: t.write_bytes(b"x"))]
     finally:
         os.umask(old)
     for p in paths:
