@@ -42,14 +42,9 @@ def test_key_names_read_as_on_the_keyboard():
 
 
 def test_k_means_up_wherever_it_is_bound():
-    """j/k move down/up in the overview and scroll the help; no screen gives k or K another meaning.
-
-    The clusters screen still binds k/K to K max (its keys are being changed with the explore command,
-    issue 15.7); drop this exclusion when that lands.
-    """
+    """j/k move down/up in the overview and scroll the help; no screen gives k or K another meaning
+    (the clusters screen changes K max with + and −)."""
     for title, bindings, _ in _sections():
-        if title.startswith("Clusters"):
-            continue
         for b in bindings:
             keys = [k.strip() for k in b.key.split(",")]
             if "k" in keys or "K" in keys:

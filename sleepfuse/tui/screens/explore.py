@@ -110,8 +110,8 @@ class ExploreScreen(Screen):
     CSS_PATH = tcss("explore")
     BINDINGS = [
         Binding("b", "next_block", "Block", tooltip="next instrument block: diary, actigraphy, psg, all"),
-        Binding("plus,k", "kmax(1)", "K max+", key_display="+", tooltip="try one more cluster (K max up to 6)"),
-        Binding("minus,K", "kmax(-1)", "K max−", key_display="−", tooltip="try one cluster fewer"),
+        Binding("plus", "kmax(1)", "K max+", key_display="+", tooltip="try one more cluster (K max up to 6)"),
+        Binding("minus", "kmax(-1)", "K max−", key_display="−", tooltip="try one cluster fewer"),
         Binding("slash", "edit_columns", "Columns", key_display="/",
                 tooltip="type column names or glob patterns, comma-separated; Enter fits them"),
         Binding("escape,q", "back", "Back", key_display="q",
