@@ -11,6 +11,17 @@ ROOT = Path(__file__).resolve().parents[1]
 SAMPLE = ROOT / "sample_records"
 
 
+def copy_demo_participants(root: Path, participants=("P01", "P02")) -> Path:
+    """A study folder at ``root`` with the demo's study.toml and the files of a few demo participants."""
+    for sub in ("psg", "actigraphy", "diary"):
+        (root / sub).mkdir(parents=True)
+    shutil.copy(SAMPLE / "study.toml", root / "study.toml")
+    for pid in participants:
+        for src in SAMPLE.glob(f"*/{pid}_*"):
+            shutil.copy(src, root / src.parent.name / src.name)
+    return root
+
+
 def make_messy_study(root: Path) -> Path:
     """Two good participants from the demo study plus one bad file of every kind."""
     root.mkdir(parents=True, exist_ok=True)

@@ -10,11 +10,11 @@ from __future__ import annotations
 
 import json
 import os
-import shutil
 import stat
 from pathlib import Path
 
 import pytest
+from conftest import copy_demo_participants
 
 import sleepfuse.run.batch as batch_mod
 from sleepfuse.cli.main import main
@@ -25,13 +25,7 @@ SAMPLE = Path(__file__).resolve().parents[1] / "sample_records"
 
 @pytest.fixture
 def study(tmp_path):
-    root = tmp_path / "study"
-    for sub in ("psg", "actigraphy", "diary"):
-        (root / sub).mkdir(parents=True)
-    shutil.copy(SAMPLE / "study.toml", root / "study.toml")
-    for pid in ("P01", "P02"):
-        for src in SAMPLE.glob(f"*/{pid}_*"):
-            shutil.copy(src, root / src.parent.name / src.name)
+    root = copy_demo_participants(tmp_path / "study")
     return root
 
 

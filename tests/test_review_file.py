@@ -8,10 +8,10 @@ are warned about (common practice: report and carry on, never drop silently).
 from __future__ import annotations
 
 import csv
-import shutil
 from pathlib import Path
 
 import pytest
+from conftest import copy_demo_participants
 
 from sleepfuse.model.qc import QCLog
 from sleepfuse.run.batch import BatchOptions, run_batch
@@ -38,13 +38,7 @@ UNKNOWN = [
 
 @pytest.fixture
 def study(tmp_path):
-    root = tmp_path / "study"
-    for sub in ("psg", "actigraphy", "diary"):
-        (root / sub).mkdir(parents=True)
-    shutil.copy(SAMPLE / "study.toml", root / "study.toml")
-    for pid in ("P01", "P02"):
-        for src in SAMPLE.glob(f"*/{pid}_*"):
-            shutil.copy(src, root / src.parent.name / src.name)
+    root = copy_demo_participants(tmp_path / "study")
     (root / REVIEW_FILE).write_text(HEADER + GOOD + "".join(BAD_LINES) + "".join(UNKNOWN), encoding="utf-8")
     return root
 

@@ -21,7 +21,7 @@ from typing import TYPE_CHECKING
 import pandas as pd
 
 from sleepfuse.model.errors import ConfigError
-from sleepfuse.explore.columns import BLOCKS, PARTICIPANT
+from sleepfuse.explore.columns import BLOCKS, PARTICIPANT, read_participant_csv
 from sleepfuse.explore.names import (DEFAULT_KMAX, DEFAULT_MAX_ITER, DEFAULT_STARTS, EXPLORATORY_CAUTION,
                                       FAMILIES)
 from sleepfuse.output.files import write_csv as write_csv_atomic
@@ -96,14 +96,7 @@ def _check_options(args) -> tuple[str, ...]:
 def read_matrix(path: str | Path) -> pd.DataFrame:
     """The matrix CSV with participant IDs kept as text; ConfigError when it cannot be used."""
     path = Path(path)
-    try:
-        matrix = pd.read_csv(path, dtype={PARTICIPANT: str})
-    except FileNotFoundError:
-        raise ConfigError("MATRIX", str(path), "an existing CSV file") from None
-    except (OSError, ValueError, pd.errors.ParserError) as exc:
-        raise ConfigError("MATRIX", str(path), f"a readable CSV file ({exc})") from None
-    if PARTICIPANT not in matrix.columns:
-        raise ConfigError("MATRIX", str(path), f"a CSV whose first column is '{PARTICIPANT}'")
+    matrix = read_participant_csv(path, "MATRIX", f"a CSV whose first column is '{PARTICIPANT}'")
     duplicated = matrix[PARTICIPANT][matrix[PARTICIPANT].duplicated()].unique()
     if len(duplicated):
         raise ConfigError("MATRIX", str(path), "one row per participant (repeated: "

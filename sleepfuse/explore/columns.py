@@ -195,3 +195,18 @@ def prepare(matrix: pd.DataFrame, column_set: ColumnSet, log_columns=()) -> Prep
     sds = raw.std(axis=0, ddof=1) if n > 1 else np.full(len(kept), np.nan)
     return PreparedData(column_set.name, tuple(kept), participants[complete.to_numpy()], raw,
                         means, sds, excluded, notes, tuple(c for c in kept if c in log_columns))
+
+
+def read_participant_csv(path, what: str, needs: str) -> pd.DataFrame:
+    """A CSV keyed by participant, IDs kept as text; ConfigError naming ``what`` when it cannot be used.
+
+    ``needs`` says what the file must look like when it has no participant column."""
+    try:
+        table = pd.read_csv(path, dtype={PARTICIPANT: str})
+    except FileNotFoundError:
+        raise ConfigError(what, str(path), "an existing CSV file") from None
+    except (OSError, ValueError, pd.errors.ParserError) as exc:
+        raise ConfigError(what, str(path), f"a readable CSV file ({exc})") from None
+    if PARTICIPANT not in table.columns:
+        raise ConfigError(what, str(path), needs)
+    return table

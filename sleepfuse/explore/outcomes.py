@@ -24,7 +24,7 @@ import numpy as np
 import pandas as pd
 from scipy import stats
 
-from sleepfuse.explore.columns import PARTICIPANT
+from sleepfuse.explore.columns import PARTICIPANT, read_participant_csv
 from sleepfuse.explore.selection import adjusted_rand_index
 from sleepfuse.model.errors import ConfigError
 
@@ -35,14 +35,7 @@ PROFILE_COLUMNS = ["block", "cluster", "n", "variable", "kind", "median", "q1", 
 
 def read_outcomes(path) -> pd.DataFrame:
     """The outcomes CSV with participant IDs as text; ConfigError when it cannot be used."""
-    try:
-        table = pd.read_csv(path, dtype={PARTICIPANT: str})
-    except FileNotFoundError:
-        raise ConfigError("--outcomes", str(path), "an existing CSV file") from None
-    except (OSError, ValueError, pd.errors.ParserError) as exc:
-        raise ConfigError("--outcomes", str(path), f"a readable CSV file ({exc})") from None
-    if PARTICIPANT not in table.columns:
-        raise ConfigError("--outcomes", str(path), f"a CSV with a '{PARTICIPANT}' column")
+    table = read_participant_csv(path, "--outcomes", f"a CSV with a '{PARTICIPANT}' column")
     if table[PARTICIPANT].duplicated().any():
         raise ConfigError("--outcomes", str(path), "one row per participant")
     if len(table.columns) < 2:
