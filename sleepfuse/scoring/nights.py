@@ -17,7 +17,7 @@ import numpy as np
 import pandas as pd
 
 from sleepfuse.model.config import StudyConfig
-from sleepfuse.model.qc import QCLog
+from sleepfuse.model.qc import QCLog, study_path
 from sleepfuse.model.records import ActigraphyRecord, DiaryEntry, Hypnogram
 from sleepfuse.model.stages import Stage
 from sleepfuse.model.records import ParticipantRecords, actigraphy_nights, hypnogram_night
@@ -174,17 +174,10 @@ def _check_missing(row: dict, window_start: pd.Timestamp, codes: np.ndarray, not
                         "these minutes are neither sleep nor wake")
 
 
-def _rel(path: Path, config: StudyConfig) -> str:
-    try:
-        return str(Path(path).relative_to(config.root))
-    except ValueError:
-        return str(path)
-
-
 def score_psg(config: StudyConfig, participant: str, h: Hypnogram, qc: QCLog, out: ScoredParticipant) -> None:
     night = hypnogram_night(h)
     row = _row(participant, night, "psg")
-    note = _Notes(qc, row, _rel(h.path, config))
+    note = _Notes(qc, row, study_path(h.path, config.root))
     window, why = psg_window(h)
     out.hypnograms[row["night"]] = h
     if window is None:
@@ -220,7 +213,7 @@ def score_actigraphy_record(config: StudyConfig, rec: ActigraphyRecord, qc: QCLo
     has_column = rec.off_wrist is not None
     if rule == "column" and not has_column:
         qc.warning("actigraphy.nonwear = 'column' but the file has no off_wrist column: no non-wear detected",
-                   file=_rel(rec.path, config), participant=participant)
+                   file=study_path(rec.path, config.root), participant=participant)
     if (rule in ("auto", "column")) and has_column:
         nonwear = rec.off_wrist[: n_min * per].reshape(n_min, per).any(axis=1)
         used = "off_wrist column"
@@ -268,7 +261,7 @@ def score_actigraphy_windows(
 ) -> None:
     """Score the nights of one actigraphy record, each on its window (None: none found;
     COVERED_TWICE: skipped with a warning), the parameters of all in one pass."""
-    file = _rel(scoring.path, config) if file is None else file
+    file = study_path(scoring.path, config.root) if file is None else file
     cuts = {k: cut_window(scoring.start, 60.0, scoring.codes, w) for k, (_, w) in enumerate(nights)
             if w is not None and w is not COVERED_TWICE}
     params = iter(sleep_parameters_many([codes for codes, _ in cuts.values()], 60.0, staged=False,
@@ -358,7 +351,7 @@ def score_participant(config: StudyConfig, rec: ParticipantRecords, qc: QCLog) -
                 continue
             done.add(night)
             plan.append((night, actigraphy_window(config, night, scoring, usable_diary.get(night))))
-        score_actigraphy_windows(config, rec.participant, scoring, plan, qc, out, _rel(a.path, config))
+        score_actigraphy_windows(config, rec.participant, scoring, plan, qc, out, study_path(a.path, config.root))
         if best is None or a.n_epochs > best.n_epochs:
             best, best_scoring = a, scoring
     if best is not None:

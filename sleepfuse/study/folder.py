@@ -16,7 +16,7 @@ from typing import Callable, Iterable
 
 from sleepfuse.model.config import FilesSection, StudyConfig, load_config
 from sleepfuse.model.errors import ReadError
-from sleepfuse.model.qc import QCLog
+from sleepfuse.model.qc import QCLog, study_path
 from sleepfuse.model.records import (  # noqa: F401  (SOURCES and the night rules re-exported)
     SOURCES,
     ActigraphyRecord,
@@ -72,7 +72,7 @@ def discover(config: StudyConfig, qc: QCLog) -> StudyFiles:
     allowed = set(config.study.participants)
     for source, pattern in patterns.items():
         for path in _matches(root, source, pattern, qc):
-            rel = _rel(path, root)
+            rel = study_path(path, root)
             if not _readable_input(path, root, rel, qc):
                 continue
             all_files.append(path)
@@ -175,13 +175,6 @@ def _readable_input(path: Path, root: Path, rel: str, qc: QCLog) -> bool:
     return True
 
 
-def _rel(path: Path, root: Path) -> str:
-    try:
-        return str(path.relative_to(root))
-    except ValueError:
-        return str(path)
-
-
 QUOTE_MAX, MESSAGE_MAX = 40, 400  # characters of a quoted piece of a file, of a whole message
 # a quote opens after a non-word character (so the closing quote of 'a' never opens 'b')
 _QUOTED = re.compile(r"(?<!\w)'(?:[^'\\\n]|\\.){%d,}'|(?<!\w)\"(?:[^\"\\\n]|\\.){%d,}\"" % (QUOTE_MAX + 1, QUOTE_MAX + 1))
@@ -251,7 +244,7 @@ def load_participant(
     }
     for source, (label, read, keep) in readers.items():
         for path in files.get(source, []):
-            rel = _rel(path, config.root)
+            rel = study_path(path, config.root)
             rec.files.append(path)
             try:
                 record = read(path)
@@ -277,8 +270,8 @@ def _check_duplicate_nights(rec: ParticipantRecords, qc: QCLog, config: StudyCon
         n = hypnogram_night(h)
         if n in seen:
             qc.error(
-                f"second PSG recording on night {n} (first: {_rel(seen[n].path, config.root)}); this one is skipped",
-                file=_rel(h.path, config.root), participant=rec.participant, night=n,
+                f"second PSG recording on night {n} (first: {study_path(seen[n].path, config.root)}); this one is skipped",
+                file=study_path(h.path, config.root), participant=rec.participant, night=n,
             )
             continue
         seen[n] = h
@@ -304,7 +297,7 @@ def read_combined_diaries(config: StudyConfig, paths: Iterable[Path], qc: QCLog)
     out: dict[str, list[DiaryEntry]] = {}
     allowed = set(config.study.participants)
     for path in paths:
-        rel = _rel(path, config.root)
+        rel = study_path(path, config.root)
         try:
             d = read_diary_file(config, path, None)
         except ReadError as exc:

@@ -14,9 +14,9 @@ from pathlib import Path
 
 from sleepfuse.model.config import SECTIONS, StudyConfig, load_config
 from sleepfuse.model.errors import ReadError
-from sleepfuse.model.qc import QCLog
+from sleepfuse.model.qc import QCLog, study_path
 from sleepfuse.model.records import ActigraphyRecord, Diary, Hypnogram, actigraphy_nights, hypnogram_night
-from .folder import _rel, discover, read_actigraphy_file, read_diary_file, read_hypnogram_file
+from .folder import discover, read_actigraphy_file, read_diary_file, read_hypnogram_file
 
 
 @dataclass
@@ -65,7 +65,7 @@ def survey(root: str | Path, config: StudyConfig | None = None) -> Survey:
     reports = []
     for path in found.all_files:
         pid, source = owner.get(path, ("", _source_of(path, root)))
-        report = FileReport(_rel(path, root), source, pid)
+        report = FileReport(study_path(path, root), source, pid)
         reports.append(report)
         if path not in owner:
             report.error = "not assigned to a participant (see the notes)"
