@@ -8,7 +8,9 @@ from __future__ import annotations
 
 import datetime as dt
 import hashlib
+import os
 import re
+import stat
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable, Iterable
@@ -70,10 +72,11 @@ def discover(config: StudyConfig, qc: QCLog) -> StudyFiles:
     combined: list[Path] = []
     all_files: list[Path] = []
     allowed = set(config.study.participants)
+    real: dict[Path, Path] = {}  # resolved folders
     for source, pattern in patterns.items():
         for path in _matches(root, source, pattern, qc):
             rel = study_path(path, root)
-            if not _readable_input(path, root, rel, qc):
+            if not _readable_input(path, root, rel, qc, real):
                 continue
             all_files.append(path)
             participant = config.participant_of(path)
@@ -151,24 +154,41 @@ def _matches(root: Path, source: str, pattern: str, qc: QCLog) -> list[Path]:
         return []
 
 
-def _readable_input(path: Path, root: Path, rel: str, qc: QCLog) -> bool:
-    """True for a regular file (possibly through a link); every other match gets a QC line and is skipped."""
+def _readable_input(path: Path, root: Path, rel: str, qc: QCLog, real: dict[Path, Path] | None = None) -> bool:
+    """True for a regular file (possibly through a link); every other match gets a QC line and is skipped.
+
+    ``real`` remembers resolved folders across calls (the study root and each
+    folder of files): a plain file is inside the study when its folder is, so
+    only links are resolved one by one.
+    """
+    real = {} if real is None else real
     try:
-        if path.is_symlink() and not path.exists():
-            qc.error("broken link: the file it points to does not exist; skipped", file=safe_cell(rel))
-            return False
-        if path.is_dir():
+        mode = os.lstat(path).st_mode
+        link = stat.S_ISLNK(mode)
+        if link:
+            if not path.exists():
+                qc.error("broken link: the file it points to does not exist; skipped", file=safe_cell(rel))
+                return False
+            mode = os.stat(path).st_mode
+        if stat.S_ISDIR(mode):
             qc.warning("a folder, not a file, matches the file pattern; skipped", file=safe_cell(rel))
             return False
-        if not path.is_file():  # never opened: a pipe would block, a device never ends
+        if not stat.S_ISREG(mode):  # never opened: a pipe would block, a device never ends
             qc.error("not a regular file (a pipe, socket or device); skipped", file=safe_cell(rel))
             return False
-        target = path.resolve()
+        if link:
+            target = path.resolve()
+        else:
+            if path.parent not in real:
+                real[path.parent] = path.parent.resolve()
+            target = real[path.parent] / path.name
+        if root not in real:
+            real[root] = root.resolve()
     except OSError as exc:
         qc.error(f"cannot be examined ({exc.strerror or type(exc).__name__}); skipped", file=safe_cell(rel))
         return False
     try:
-        target.relative_to(root.resolve())
+        target.relative_to(real[root])
     except ValueError:
         qc.warning("read through a link that leads outside the study folder; the study is not self-contained",
                    file=safe_cell(rel))
