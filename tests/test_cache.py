@@ -56,9 +56,9 @@ def calls(monkeypatch):
     seen: list[str] = []
     real = engine.run_participant
 
-    def counting(config, job, inputs=None):
+    def counting(config, job, inputs=None, **kw):
         seen.append(job.participant)
-        return real(config, job, inputs)
+        return real(config, job, inputs, **kw)
 
     monkeypatch.setattr(engine, "run_participant", counting)
     return seen
@@ -394,3 +394,46 @@ def test_app_loader_sets_a_damaged_cache_aside_and_scores(study, tmp_path, damag
     assert set(rows.participant) == set(IDS)
     assert any("could not be read" in e.message and e.severity == "warning" for e in loader.qc)
     assert list((study / CACHE_DIR).glob(f"{CACHE_FILE}.damaged-*"))
+
+
+def test_a_participant_stopped_by_a_failure_is_never_cached_whatever_its_messages_say(study, tmp_path, calls,
+                                                                                    monkeypatch):
+    # Whether an outcome is stored is its explicit ``complete`` flag, set where the outcome is made
+    # (common practice for a cache: never keep the result of an unexpected failure), not a QC message's wording.
+    import sleepfuse.run.participant as participant
+
+    real = participant.score_participant
+
+    def failing(config, rec, qc):
+        if rec.participant == "Q02":
+            raise RuntimeError("invented failure")
+        if rec.participant == "Q03":  # a complete participant whose message merely reads like a failure
+            qc.error("participant not processed: only a message", participant="Q03")
+        return real(config, rec, qc)
+
+    monkeypatch.setattr(participant, "score_participant", failing)
+    first = run(study, tmp_path / "o1")
+    q = first.tables["qc"]
+    assert q[(q.participant == "Q02") & q.message.str.startswith("participant not processed: RuntimeError")].shape[0] == 1
+    calls.clear()
+    second = run(study, tmp_path / "o2")
+    assert calls == ["Q02"]  # Q01 and Q03 came from the cache
+    assert (second.n_recomputed, second.n_from_cache) == (1, 2)
+
+
+def test_an_outcome_whose_epoch_agreement_failed_is_not_cached(study, tmp_path, calls, monkeypatch):
+    # The epoch agreement is optional (the participant's nights are kept), but its unexpected failure
+    # makes the outcome incomplete: the next run computes it again rather than keep the failure.
+    real = engine.epoch_rows
+
+    def failing(config, scored, qc):
+        if scored.participant == "Q01":
+            raise MemoryError("invented")
+        return real(config, scored, qc)
+
+    monkeypatch.setattr(engine, "epoch_rows", failing)
+    first = run(study, tmp_path / "o1")
+    assert (first.tables["nights"].participant == "Q01").any()
+    calls.clear()
+    run(study, tmp_path / "o2")
+    assert calls == ["Q01"]

@@ -36,3 +36,23 @@ def test_changed_file_rescored_and_no_cache_option(tmp_path):
     assert again.from_cache == set(again.participants) - {"P02"}
     fresh, _ = _load(root, use_cache=False)
     assert fresh.from_cache == set()
+
+
+def test_session_runs_participants_through_the_engine_and_builds_batch_s_night_table(tmp_path, monkeypatch):
+    # One orchestration: the app's loader runs each participant with engine.run_participant (through
+    # run.cache.run_cached, as batch does), and its night table equals batch's nights table.
+    import sleepfuse.run.engine as engine
+    from sleepfuse.fusion.epoch_table import epoch_table
+    from sleepfuse.run.batch import BatchOptions, run_batch
+
+    root = copy_study(tmp_path / "study")
+    seen = []
+    real = engine.run_participant
+    monkeypatch.setattr(engine, "run_participant",
+                        lambda config, job, inputs=None, **kw: seen.append(job.participant) or real(config, job, inputs, **kw))
+    loader, ws = _load(root)
+    assert seen == loader.participants and loader.from_cache == set()
+    batch = run_batch(root, BatchOptions(out=tmp_path / "out"), argv=["test"])
+    assert batch.n_from_cache == len(loader.participants)  # the app stored them where batch looks
+    pd.testing.assert_frame_equal(ws.nights, batch.tables["nights"], check_exact=True)
+    pd.testing.assert_frame_equal(epoch_table(ws.epoch_rows), batch.tables["epochs_agreement"], check_exact=True)

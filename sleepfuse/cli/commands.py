@@ -39,14 +39,13 @@ def run_score(args: argparse.Namespace) -> int:
     from sleepfuse.model.qc import qc_summary
     from sleepfuse.output.files import write_text
     from sleepfuse.run.engine import run_study_jobs
-    from sleepfuse.scoring.nights import ScoredParticipant, night_table
-    from sleepfuse.study.review import apply_decisions, load_decisions
+    from sleepfuse.run.tables import night_table_of
+    from sleepfuse.study.review import load_decisions
 
     config = load_config(args.study)
     with participant_progress() as update:
         outcomes, qc, _ = run_study_jobs(config, progress=update)
-    nights = apply_decisions(night_table([ScoredParticipant(o.participant, rows=o.rows) for o in outcomes]),
-                             load_decisions(config.root))
+    nights = night_table_of(outcomes, load_decisions(config.root))
     if nights.empty:
         print("sleepfuse: no night could be scored; see the QC log with 'sleepfuse check'", file=sys.stderr)
         return 1

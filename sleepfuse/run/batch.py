@@ -34,19 +34,15 @@ from sleepfuse.model.config import StudyConfig, load_config
 from sleepfuse.output.csvtext import csv_chunks
 from sleepfuse.model.definitions import DEFINITION_CHOICES
 from sleepfuse.fusion.agreement import agreement_provenance
-from sleepfuse.fusion.epoch_table import epoch_table
-from sleepfuse.fusion.matrix import codebook, participant_matrix
-from sleepfuse.fusion.pairs import agreement_table
 from sleepfuse.run.outdir import (PROVENANCE, check_out, earlier_outputs, foreign_files, make_out, remove_leftover_temps,
                                   remove_stale, what_is_left)
-from sleepfuse.run.engine import ParticipantOutcome, input_record, process_pool, rel_path
+from sleepfuse.run.engine import input_record, process_pool, rel_path
 from sleepfuse.run.participant import plan_jobs
 from sleepfuse.model.qc import QCLog
-from sleepfuse.study.review import REVIEW_FILE, Decision, apply_decisions, load_decisions
+from sleepfuse.run.tables import OUTPUT_TABLES, build_tables
+from sleepfuse.study.review import REVIEW_FILE, load_decisions
 from sleepfuse.scoring.actigraphy import algorithm_provenance as actigraphy_provenance
-from sleepfuse.scoring.nights import night_table, rhythm_table
 
-OUTPUT_TABLES = ("nights", "agreement", "epochs_agreement", "matrix", "codebook", "qc")
 FORMATS = ("csv", "parquet")
 
 
@@ -73,29 +69,6 @@ class BatchResult:
     n_recomputed: int = 0
     n_from_cache: int = 0
     notes: list[str] = field(default_factory=list)  # about the output folder (temporary, stale, foreign files)
-
-
-def build_tables(config: StudyConfig, outcomes: list[ParticipantOutcome], qc: QCLog, options: BatchOptions,
-                 decisions: list[Decision] = ()) -> dict[str, pd.DataFrame]:
-    """All output tables from the participants' outcomes, review decisions honoured."""
-    from sleepfuse.scoring.nights import ScoredParticipant
-
-    scored = [ScoredParticipant(o.participant, rows=o.rows, rhythm=o.rhythm) for o in outcomes]
-    for o in outcomes:
-        qc.extend(o.qc)
-    nights = apply_decisions(night_table(scored), list(decisions), qc)
-    rhythm = rhythm_table(scored)
-    matrix = participant_matrix(nights, rhythm, min_nights=options.min_nights, zscore=options.zscore,
-                                participants=[o.participant for o in outcomes])
-    return {
-        "nights": nights,
-        "agreement": agreement_table(nights, **config.agreement.table_options()),
-        "epochs_agreement": epoch_table([r for o in outcomes for r in o.epoch_rows]),
-        "matrix": matrix,
-        "codebook": codebook(matrix, min_nights=options.min_nights, zscore=options.zscore,
-                             quality_scale=config.diary.quality_scale),
-        "qc": qc.to_frame(),
-    }
 
 
 def algorithm_provenance(config: StudyConfig) -> dict:
@@ -160,7 +133,7 @@ def run_batch(
     finally:
         if pool is not None:
             pool.shutdown(wait=True)
-    tables = build_tables(config, outcomes, qc, options, decisions)
+    tables = build_tables(config, outcomes, qc, decisions, min_nights=options.min_nights, zscore=options.zscore)
     make_out(out)
     notes = [f"removed {len(t)} temporary files an interrupted earlier run left" for t in [remove_leftover_temps(out)] if t]
     earlier = earlier_outputs(out)

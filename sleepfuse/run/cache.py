@@ -140,11 +140,6 @@ def decode_outcome(blob: bytes) -> "ParticipantOutcome":
     )
 
 
-def cacheable(outcome: "ParticipantOutcome") -> bool:
-    """False for outcomes of an unexpected failure (possibly passing): those are recomputed next time."""
-    return not any(e.severity == "error" and e.message.startswith("participant not processed") for e in outcome.qc)
-
-
 def _why(exc: BaseException) -> str:
     """A short reason for a QC note (never a file's content)."""
     text = str(exc).splitlines()[0] if str(exc) else ""
@@ -311,9 +306,11 @@ class CacheReport:
 def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", qc: QCLog,
                progress: Callable[[str, int, int], None] | None = None, *,
                use_cache: bool = True, workers: int = 1, scheduler: str | None = None,
-               pool=None) -> "tuple[list[ParticipantOutcome], CacheReport]":
+               pool=None, keep_detail: bool = False) -> "tuple[list[ParticipantOutcome], CacheReport]":
     """Outcomes of every job: unchanged participants from the cache, the rest computed and stored
-    (in ``pool``, a process pool, when given)."""
+    (in ``pool``, a process pool, when given). Batch and the terminal app's session both run their
+    participants through here. An outcome that is not ``complete`` is never stored. Outcomes from the
+    cache carry no ``detail``; computed ones carry it when ``keep_detail`` (a run in this process)."""
     report = CacheReport(used=False, reason="--no-cache" if not use_cache else "")
     cache = None
     if use_cache:
@@ -323,7 +320,8 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", qc: QCLog,
             report.reason = str(exc)
             qc.info(f"incremental cache not used: {exc}; every participant computed", file=CACHE_DIR)
     if cache is None:  # each worker checksums its own participant's files (in parallel, no cache key needed)
-        outcomes = run_jobs(config, jobs, workers, progress, scheduler=scheduler, pool=pool)
+        outcomes = run_jobs(config, jobs, workers, progress, scheduler=scheduler, pool=pool,
+                            keep_detail=keep_detail)
         report.recomputed = len(outcomes)
         return outcomes, report
 
@@ -369,7 +367,7 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", qc: QCLog,
         key = keys[k]
         if inputs[k] is None and all(i.get("sha256") for i in outcome.inputs):  # checksummed by its worker
             key = participant_key(cfg, jobs[k], outcome.inputs, libs)
-        if key is None or broken or not cacheable(outcome):
+        if key is None or broken or not outcome.complete:
             return
         try:
             cache.put(key, outcome)
@@ -379,7 +377,7 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", qc: QCLog,
     try:
         computed = run_jobs(config, todo_jobs, workers, progress, inputs=[inputs[k] for k in todo],
                             scheduler=scheduler, on_done=store, done_before=len(hits), total=len(jobs),
-                             pool=pool)
+                            pool=pool, keep_detail=keep_detail)
     finally:
         try:
             cache.close()

@@ -18,13 +18,20 @@ from sleepfuse.fusion.epoch_table import epoch_rows
 from sleepfuse.model.config import StudyConfig
 from sleepfuse.model.qc import QCEntry, QCLog, study_path
 from sleepfuse.run._alloc import tune_allocator
-from sleepfuse.run.participant import ParticipantJob, plan_jobs, process_participant
+from sleepfuse.run.participant import ParticipantJob, not_processed, plan_jobs, process_participant
+from sleepfuse.scoring.nights import ScoredParticipant
 from sleepfuse.study.folder import sha256_of
 
 
 @dataclass
 class ParticipantOutcome:
-    """What a worker sends back for one participant: small tables, never raw epoch arrays."""
+    """What a worker sends back for one participant: small tables, never raw epoch arrays.
+
+    ``complete`` is False when an unexpected failure stopped the participant or
+    its epoch agreement (such an outcome is never cached, so it is recomputed
+    next time). ``detail``, the scored epoch series, is kept only when asked for
+    and only in this process (the terminal app's session); it is never cached.
+    """
 
     participant: str
     rows: list[dict]
@@ -32,26 +39,30 @@ class ParticipantOutcome:
     epoch_rows: list[dict]
     qc: list[QCEntry]
     inputs: list[dict] = field(default_factory=list)
+    complete: bool = True
+    detail: ScoredParticipant | None = field(default=None, repr=False, compare=False)
 
 
-
-def run_participant(config: StudyConfig, job: ParticipantJob, inputs: list[dict] | None = None) -> ParticipantOutcome:
+def run_participant(config: StudyConfig, job: ParticipantJob, inputs: list[dict] | None = None, *,
+                    keep_detail: bool = False) -> ParticipantOutcome:
     """Read, score and compare the instruments of one participant (runs in a worker).
 
     ``inputs`` are the files' provenance records if already made (checksums
     are computed once, by the caller); otherwise they are made here.
+    ``keep_detail`` keeps the scored epoch series in the outcome (``detail``).
     """
     tune_allocator()  # once per process (forked workers inherit it; Dask workers set it here)
-    scored, entries = process_participant(config, job)
+    scored, entries, complete = process_participant(config, job)
     qc = QCLog(list(entries))
     try:
         erows = epoch_rows(config, scored, qc)
     except Exception as exc:  # epoch agreement is optional; never lose the participant for it
         qc.error(f"epoch-by-epoch agreement not computed: {type(exc).__name__}: {exc}", participant=job.participant)
-        erows = []
+        erows, complete = [], False
     if inputs is None:
         inputs = job_inputs(config, job, scored.digests)
-    return ParticipantOutcome(job.participant, scored.rows, scored.rhythm, erows, qc.entries, list(inputs))
+    return ParticipantOutcome(job.participant, scored.rows, scored.rhythm, erows, qc.entries, list(inputs),
+                              complete, scored if keep_detail else None)
 
 
 def run_study_jobs(config: StudyConfig, *, progress: Callable[[str, int, int], None] | None = None,
@@ -80,10 +91,10 @@ def job_inputs(config: StudyConfig, job: ParticipantJob, digests: dict[Path, str
 def failed_outcome(config: StudyConfig, job: ParticipantJob, exc: BaseException,
                    inputs: list[dict] | None = None) -> ParticipantOutcome:
     """A participant whose worker crashed: one QC error, no rows (never cached); its files still in provenance."""
-    entry = QCEntry("", job.participant, "", "error", f"participant not processed: {type(exc).__name__}: {exc}")
+    entry = QCEntry("", job.participant, "", "error", not_processed(exc))
     if inputs is None:
         inputs = job_inputs(config, job)
-    return ParticipantOutcome(job.participant, [], {}, [], [entry], list(inputs))
+    return ParticipantOutcome(job.participant, [], {}, [], [entry], list(inputs), complete=False)
 
 
 def input_record(config: StudyConfig, path: Path, source: str, digest: str | None = None) -> dict:
@@ -110,12 +121,13 @@ def run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
               inputs: list[list[dict]] | None = None, scheduler: str | None = None,
               on_done: Callable[[int, ParticipantOutcome], None] | None = None,
               done_before: int = 0, total: int | None = None,
-              pool: ProcessPoolExecutor | None = None) -> list[ParticipantOutcome]:
+              pool: ProcessPoolExecutor | None = None, keep_detail: bool = False) -> list[ParticipantOutcome]:
     """Run ``run_participant`` for every job: here, in a process pool or on a Dask cluster.
 
     Outcomes come back sorted by participant whichever way they ran, so the
     tables are the same. ``on_done(index, outcome)`` is called as each one
     arrives (the cache stores it then); progress counts from ``done_before``.
+    ``keep_detail`` (the epoch series in each outcome) applies to a run in this process only.
     """
     outcomes: list[ParticipantOutcome] = []
     n = len(jobs)
@@ -138,7 +150,7 @@ def run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
         for k, job in enumerate(jobs):
             if progress:
                 progress(job.participant, done_before + k, total)
-            finish(k, run_participant(config, job, inputs[k]), k + 1)
+            finish(k, run_participant(config, job, inputs[k], keep_detail=keep_detail), k + 1)
     else:
         own = pool is None  # a pool of its own, or the caller's (batch keeps it for writing the tables)
         if own:

@@ -9,13 +9,13 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable, Iterable
+from typing import Callable, Iterable, NamedTuple
 
 import pandas as pd
 
 from sleepfuse.model.config import StudyConfig, load_config
 from sleepfuse.model.qc import QCEntry, QCLog
-from sleepfuse.scoring.nights import ScoredParticipant, night_table, rhythm_table, score_participant
+from sleepfuse.scoring.nights import ScoredParticipant, rhythm_table, score_participant
 from sleepfuse.study.folder import ParticipantJob, load_participant, plan_jobs  # noqa: F401  (re-exported)
 
 
@@ -31,7 +31,15 @@ class StudyResult:
     files: list[Path] = field(default_factory=list)
 
 
-def process_participant(config: StudyConfig, job: ParticipantJob) -> tuple[ScoredParticipant, list[QCEntry]]:
+class Processed(NamedTuple):
+    """One participant read and scored: the scores, the QC entries, and whether it went through."""
+
+    scored: ScoredParticipant
+    qc: list[QCEntry]
+    complete: bool  # False: an unexpected failure stopped it (one QC error, no rows)
+
+
+def process_participant(config: StudyConfig, job: ParticipantJob) -> Processed:
     """Read and score one participant; an unexpected failure becomes a QC error, not a crash."""
     qc = QCLog()
     try:
@@ -39,9 +47,14 @@ def process_participant(config: StudyConfig, job: ParticipantJob) -> tuple[Score
         scored = score_participant(config, rec, qc)
         scored.digests = rec.digests
     except Exception as exc:  # one participant never stops the study
-        qc.error(f"participant not processed: {type(exc).__name__}: {exc}", participant=job.participant)
-        scored = ScoredParticipant(job.participant)
-    return scored, qc.entries
+        qc.error(not_processed(exc), participant=job.participant)
+        return Processed(ScoredParticipant(job.participant), qc.entries, False)
+    return Processed(scored, qc.entries, True)
+
+
+def not_processed(exc: BaseException) -> str:
+    """The QC message of a participant an unexpected failure stopped."""
+    return f"participant not processed: {type(exc).__name__}: {exc}"
 
 
 def run_study(
@@ -59,7 +72,7 @@ def run_study(
     for i, job in enumerate(jobs):
         if progress:
             progress(job.participant, i, len(jobs))
-        s, entries = process_participant(config, job)
+        s, entries, _ = process_participant(config, job)
         qc.extend(entries)
         scored.append(s)
     return assemble(config, scored, qc, files, keep_detail=keep_detail)
@@ -67,12 +80,13 @@ def run_study(
 
 def assemble(config: StudyConfig, scored: Iterable[ScoredParticipant], qc: QCLog, files: list[Path],
              *, keep_detail: bool = True) -> StudyResult:
-    from sleepfuse.study.review import apply_decisions, load_decisions
+    from sleepfuse.run.tables import night_table_of
+    from sleepfuse.study.review import load_decisions
 
     scored = list(scored)
     return StudyResult(
         config=config,
-        nights=apply_decisions(night_table(scored), load_decisions(config.root, qc), qc),
+        nights=night_table_of(scored, load_decisions(config.root, qc), qc),
         rhythm=rhythm_table(scored),
         qc=qc,
         participants={s.participant: s for s in scored} if keep_detail else {},

@@ -21,16 +21,17 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from sleepfuse.run.engine import ParticipantOutcome, job_inputs
-from sleepfuse.model.config import StudyConfig, load_config
-from sleepfuse.model.definitions import PAIRS, PARAMETERS, pair_name
 from sleepfuse.fusion.disagreement import rank_disagreements
 from sleepfuse.fusion.epoch_table import epoch_rows
 from sleepfuse.fusion.pairs import agreement_table, paired_nights, shared_parameters
-from sleepfuse.run.participant import ParticipantJob, StudyResult, plan_jobs, process_participant
+from sleepfuse.model.config import StudyConfig, load_config
+from sleepfuse.model.definitions import PAIRS, PARAMETERS, pair_name
 from sleepfuse.model.qc import QCEntry, QCLog
+from sleepfuse.run.cache import run_cached
+from sleepfuse.run.participant import ParticipantJob, StudyResult, plan_jobs, process_participant
+from sleepfuse.run.tables import night_table_of
+from sleepfuse.scoring.nights import SOURCE_PARAMETERS, ScoredParticipant, rhythm_table
 from sleepfuse.study.review import Decision, apply_decisions, effective, load_decisions, record_decision
-from sleepfuse.scoring.nights import SOURCE_PARAMETERS, ScoredParticipant, night_table, rhythm_table
 
 SOURCES = ("psg", "actigraphy", "diary")
 SOURCE_LETTER = {"psg": "P", "actigraphy": "A", "diary": "D"}
@@ -66,9 +67,10 @@ class ParameterLine:
 class StudyLoader:
     """Discover a study's files now; score its participants chunk by chunk later (for a progress display).
 
-    Participants whose files and settings are unchanged come from the batch
-    cache (``sleepfuse.run.cache``) without their epoch detail, which the
-    workspace re-scores on demand; the others are scored and stored.
+    Participants run through the engine as in batch (``run.cache.run_cached``):
+    those whose files and settings are unchanged come from the batch cache
+    without their epoch detail, which the workspace re-scores on demand; the
+    others are scored (detail kept) and stored.
     """
 
     def __init__(self, root: str | Path, config: StudyConfig | None = None, *, use_cache: bool = True):
@@ -88,62 +90,22 @@ class StudyLoader:
         return list(self.jobs)
 
     def score(self, participants: list[str]) -> pd.DataFrame:
-        """Score these participants; returns their night rows with review decisions applied."""
-        from sleepfuse.run.cache import CACHE_DIR, CACHE_FILE, CacheUnavailable, OutcomeCache, cacheable, config_fingerprint, library_versions, participant_key
-
-        cache = None
-        if self.use_cache:
-            try:
-                cache = OutcomeCache.open(self.root)  # one connection per call: workers may change threads
-            except CacheUnavailable as exc:
-                self.qc.info(f"incremental cache not used: {exc}")
-                self.use_cache = False
-        cfg, libs = (config_fingerprint(self.config), library_versions()) if cache else ("", {})
+        """Score these participants as batch does (``run.cache.run_cached``); returns their night rows
+        with review decisions applied."""
+        jobs = [self.jobs[pid] for pid in participants]
+        outcomes, report = run_cached(self.config, jobs, self.qc, use_cache=self.use_cache, keep_detail=True)
+        if self.use_cache and not report.used:  # the cache cannot be opened: said once, then gone without
+            self.use_cache = False
         chunk = []
-        try:
-            for pid in participants:
-                job, key = self.jobs[pid], None
-                if cache is not None:
-                    inputs = job_inputs(self.config, job)
-                    if all(i.get("sha256") for i in inputs):
-                        key = participant_key(cfg, job, inputs, libs)
-                        found, why = cache.get(pid, key)
-                        if why:
-                            self.qc.info(why, participant=pid)
-                        if found is not None:
-                            self.from_cache.add(pid)
-                            self.epoch_rows += found.epoch_rows
-                            self.qc.extend(found.qc)
-                            chunk.append(ScoredParticipant(pid, rows=found.rows, rhythm=found.rhythm))
-                            continue
-                scored, entries = process_participant(self.config, job)
-                local = QCLog(list(entries))
-                try:
-                    erows = epoch_rows(self.config, scored, local)
-                except Exception as exc:  # epoch agreement is optional; never lose the participant for it
-                    erows = []
-                    local.error(f"epoch-by-epoch agreement not computed: {type(exc).__name__}: {exc}", participant=pid)
-                if cache is not None and key is not None:
-                    outcome = ParticipantOutcome(pid, scored.rows, scored.rhythm, erows, local.entries)
-                    if cacheable(outcome):
-                        try:
-                            cache.put(key, outcome)
-                        except Exception:  # a full disk or locked file costs the cache, never the session
-                            cache = None
-                self.epoch_rows += erows
-                self.qc.extend(local.entries)
-                chunk.append(scored)
-        finally:
-            if cache is not None:
-                for note in cache.notes:  # a damaged store was set aside and a new one started
-                    self.qc.warning(note, file=str(Path(CACHE_DIR) / CACHE_FILE))
-                cache.notes.clear()
-                try:
-                    cache.close()
-                except Exception as exc:  # the cache is never worth the session
-                    self.qc.info(f"incremental cache could not be updated ({type(exc).__name__})")
+        for o in outcomes:
+            self.epoch_rows += o.epoch_rows
+            self.qc.extend(o.qc)
+            if o.detail is None:  # from the cache: the epoch detail is re-scored when a night is opened
+                self.from_cache.add(o.participant)
+            chunk.append(o.detail if o.detail is not None else
+                         ScoredParticipant(o.participant, rows=o.rows, rhythm=o.rhythm))
         self.scored += chunk
-        return apply_decisions(night_table(chunk), self.decisions)
+        return night_table_of(chunk, self.decisions)
 
     def finish(self) -> "Workspace":
         keep = len(self.scored) <= KEEP_ALL_DETAIL
@@ -169,7 +131,7 @@ class Workspace:
         with_detail = [s for s in scored if s.participant not in without_detail]
         for s in with_detail if keep_detail else with_detail[-DETAIL_CACHE:]:
             self._detail[s.participant] = s
-        self.base_nights = night_table(scored)  # before review decisions
+        self.base_nights = night_table_of(scored)  # before review decisions
         self.rhythm = rhythm_table(scored)  # IS, IV, M10, L5, RA per participant (cached participants too)
         self.refresh(qc)  # the review file's problems are reported once, when the study opens
         self._problems = self._count_problems(qc.entries)
@@ -252,7 +214,7 @@ class Workspace:
                 self._detail.move_to_end(participant)
                 return self._detail[participant]
         job = self._jobs.get(participant)
-        scored = process_participant(self.config, job)[0] if job is not None else ScoredParticipant(participant)
+        scored = process_participant(self.config, job).scored if job is not None else ScoredParticipant(participant)
         with self._lock:
             self._detail[participant] = scored
             if not self._keep_all:
