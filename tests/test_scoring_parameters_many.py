@@ -1,9 +1,10 @@
-"""``sleep_parameters_many`` (all nights of a record in one pass) against ``sleep_parameters`` (one night).
+"""``sleep_parameters_many``: the nights of a record side by side, each scored on its own.
 
-The single-window function is the reference: its definitions are checked by
-hand in tests/test_scoring_parameters.py (AASM manual + SLEEP_PARAMETERS.md).
-Here every value of the vectorised version must be the very same float (or
-both NaN) for every window, whatever the windows hold.
+There is one implementation of the parameters; its definitions are checked by
+hand in tests/test_scoring_parameters.py (AASM manual + SLEEP_PARAMETERS.md)
+through ``sleep_parameters``, which is this function with one window. Here:
+a window's values never depend on the windows beside it (the separator epoch
+between windows must stop every run of sleep or wake), whatever they hold.
 """
 
 from __future__ import annotations
@@ -15,8 +16,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from sleepfuse.scoring.parameters import sleep_parameters, sleep_parameters_many
 from sleepfuse.model.stages import Stage
+from sleepfuse.scoring.parameters import sleep_parameters, sleep_parameters_many
 
 CODES = [int(s) for s in Stage]
 
@@ -34,11 +35,13 @@ def same(a: dict, b: dict) -> bool:
 
 
 def check(windows, epoch_s, **kw):
+    """Side by side equals each window alone (and each alone equals ``sleep_parameters``)."""
     many = sleep_parameters_many(windows, epoch_s, **kw)
     assert len(many) == len(windows)
     for w, got in zip(windows, many):
-        expected = sleep_parameters(w, epoch_s, **kw)
-        assert same(got, expected), (w, got, expected)
+        alone = sleep_parameters_many([w], epoch_s, **kw)[0]
+        assert same(got, alone), (w, got, alone)
+        assert same(alone, sleep_parameters(w, epoch_s, **kw))
 
 
 windows_strategy = st.lists(
@@ -49,7 +52,7 @@ windows_strategy = st.lists(
 @settings(max_examples=300, deadline=None)
 @given(windows=windows_strategy, staged=st.booleans(), epoch_s=st.sampled_from([30.0, 60.0, 15.0, 20.0]),
        lps=st.sampled_from([10.0, 1.0, 0.5, 3.3]), bout=st.sampled_from([0.0, 1.0, 2.5]))
-def test_many_equals_one_by_one(windows, staged, epoch_s, lps, bout):
+def test_a_window_does_not_depend_on_its_neighbours(windows, staged, epoch_s, lps, bout):
     check(windows, epoch_s, staged=staged, lps_run_min=lps, min_wake_bout_min=bout)
 
 
@@ -68,6 +71,13 @@ def test_edge_windows_side_by_side(staged):
     ]
     check(windows, 60.0, staged=staged, lps_run_min=10.0, min_wake_bout_min=0.0)
     check(windows, 30.0, staged=staged, lps_run_min=2.0, min_wake_bout_min=1.0)
+    # hand-counted (SLEEP_PARAMETERS.md): runs that would join across the separator stay apart
+    got = sleep_parameters_many([np.full(6, s, dtype=np.int8), np.full(6, s, dtype=np.int8)], 60.0,
+                                lps_run_min=10.0)
+    assert [g["tst_min"] for g in got] == [6.0, 6.0]
+    assert all(math.isnan(g["lps_min"]) for g in got)  # 6 min each, never one 12-min run
+    got = sleep_parameters_many([np.array([s, w], dtype=np.int8), np.array([w, s], dtype=np.int8)], 60.0)
+    assert [g["nwak"] for g in got] == [0.0, 0.0] and [g["waso_min"] for g in got] == [0.0, 0.0]
 
 
 def test_real_sized_nights():
@@ -87,5 +97,7 @@ def test_empty_list_and_bad_input():
         sleep_parameters_many([np.array([0, 5]), np.array([9])], 60.0)
     with pytest.raises(ValueError, match="1-D"):
         sleep_parameters_many([np.zeros((2, 2), dtype=np.int8)], 60.0)
+    with pytest.raises(ValueError, match="1-D"):
+        sleep_parameters(np.zeros((2, 2), dtype=np.int8), 60.0)
     with pytest.raises(ValueError, match="epoch_s"):
         sleep_parameters_many([np.array([0])], 0.0)

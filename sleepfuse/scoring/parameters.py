@@ -65,9 +65,11 @@ def _runs(x: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 def _true_runs(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Starts and lengths of the runs of True in a 1-D bool array (the True rows of ``_runs``)."""
-    edges = np.diff(x.view(np.int8), prepend=np.int8(0), append=np.int8(0))
-    starts = np.flatnonzero(edges == 1)
-    return starts, np.flatnonzero(edges == -1) - starts
+    framed = np.zeros(x.size + 2, dtype=np.int8)  # a False before and after
+    framed[1:-1] = x
+    edges = framed[1:] - framed[:-1]
+    starts = (edges == 1).nonzero()[0]
+    return starts, (edges == -1).nonzero()[0] - starts
 
 
 def _min_epochs(minutes: float, epoch_min: float, *, at_least: int = 1) -> int:
@@ -136,70 +138,19 @@ def sleep_parameters(
 
     No sleep at all: tst 0, se 0, spt 0, waso 0, nwak 0 and sol, lps,
     terminal_wake, rem_latency, ``*_pct`` NaN. Empty window: tib 0, all else NaN.
+
+    Computed by ``sleep_parameters_many`` with this one window (one implementation).
     """
-    _check_options(epoch_s, lps_run_min, min_wake_bout_min)
-    codes = _check_codes(codes)
-    keys = COMMON_PARAMETERS + EXTRA_PARAMETERS + (STAGE_PARAMETERS if staged else ())
-    n = codes.size
-    ep = float(epoch_s) / 60.0  # minutes per epoch
-    out: dict[str, float] = {k: _NAN for k in keys}
-    out["tib_min"] = n * ep
-    if n == 0:
-        return out
-
-    # One pass counts every code (codes are checked to lie in [_CODE_MIN, _CODE_MAX]).
-    tally = np.bincount(codes - _CODE_MIN, minlength=_CODE_MAX - _CODE_MIN + 1)
-    count = {code: int(tally[code - _CODE_MIN]) for code in range(_CODE_MIN, _CODE_MAX + 1)}
-    sleep = (codes >= _N1) & (codes <= _SLEEP)  # == stages.is_sleep(codes)
-    out["unscored_min"] = float(count[_UNSCORED]) * ep
-    out["offwrist_min"] = float(count[_OFFWRIST]) * ep
-    n_sleep = sum(count[c] for c in range(_N1, _SLEEP + 1))
-    tst = n_sleep * ep
-    out["tst_min"] = tst
-    out["se_pct"] = 100.0 * tst / out["tib_min"]
-
-    if staged:
-        for key, stage in (("n1", _N1), ("n2", _N2), ("n3", _N3), ("rem", _REM)):
-            minutes = float(count[stage]) * ep
-            out[f"{key}_min"] = minutes
-            out[f"{key}_pct"] = 100.0 * minutes / tst if n_sleep else _NAN
-
-    if n_sleep == 0:
-        out.update(spt_min=0.0, waso_min=0.0, nwak=0.0)
-        return out  # sol, lps, terminal wake, REM latency stay NaN
-
-    sleep_idx = np.flatnonzero(sleep)
-    first, last = int(sleep_idx[0]), int(sleep_idx[-1])
-    out["sol_min"] = first * ep
-    out["spt_min"] = (last + 1 - first) * ep
-    out["terminal_wake_min"] = (n - 1 - last) * ep
-    in_spt = slice(first, last + 1)
-    wake = codes[in_spt] == _WAKE  # wake epochs inside the SPT
-    out["waso_min"] = float(np.count_nonzero(wake)) * ep
-
-    # Latency to persistent sleep: first sleep run of >= lps_run_min minutes.
-    starts, lengths = _true_runs(sleep)
-    need = _min_epochs(lps_run_min, ep)
-    persistent = np.flatnonzero(lengths >= need)
-    out["lps_min"] = float(starts[persistent[0]]) * ep if persistent.size else _NAN
-
-    # Wake bouts inside the sleep period (the SPT starts and ends on sleep, so
-    # every wake run in it is interior and maximal).
-    _, w_lengths = _true_runs(wake)
-    bout = _min_epochs(min_wake_bout_min, ep) if min_wake_bout_min > 0 else 1
-    out["nwak"] = float(np.count_nonzero(w_lengths >= bout))
-
-    if staged:
-        out["rem_latency_min"] = float(int(np.argmax(codes == _REM)) - first) * ep if count[_REM] else _NAN
-    return out
+    return sleep_parameters_many([codes], epoch_s, staged=staged, lps_run_min=lps_run_min,
+                                 min_wake_bout_min=min_wake_bout_min)[0]
 
 
 def _first_per_window(positions: np.ndarray, window_of: np.ndarray, m: int) -> tuple[np.ndarray, np.ndarray]:
     """For sorted ``positions`` with their (sorted) window numbers: the first position in each of the
     ``m`` windows and whether the window has one at all."""
-    lo = np.searchsorted(window_of, np.arange(m), side="left")
+    lo = window_of.searchsorted(np.arange(m), side="left")
     has = lo < window_of.size
-    has[has] = window_of[lo[has]] == np.flatnonzero(has)
+    has[has] = window_of[lo[has]] == has.nonzero()[0]
     first = np.zeros(m, dtype=np.int64)
     first[has] = positions[lo[has]]
     return first, has
@@ -213,13 +164,13 @@ def sleep_parameters_many(
     lps_run_min: float = 10.0,
     min_wake_bout_min: float = 0.0,
 ) -> list[dict[str, float]]:
-    """``[sleep_parameters(codes, epoch_s, ...) for codes in windows]`` in one vectorised pass.
+    """The parameters of ``sleep_parameters`` for every window of ``windows``, in one vectorised pass.
 
-    The same definitions and the same floating-point operations, so every
-    value is identical (tests/test_scoring_parameters_many.py checks it against
-    ``sleep_parameters`` window by window); it only saves the per-call numpy
-    overhead when a record has many nights. Unknown codes in any window raise
-    ValueError, as ``sleep_parameters`` does for that window.
+    The one implementation of the definitions (``sleep_parameters`` calls it
+    with one window). The windows are laid side by side with a separator epoch
+    that is neither sleep nor wake, so each window's values do not depend on
+    its neighbours (tests/test_scoring_parameters_many.py). Unknown codes in
+    any window raise ValueError.
     """
     _check_options(epoch_s, lps_run_min, min_wake_bout_min)
     arrays = [np.asarray(c) for c in windows]
@@ -274,10 +225,10 @@ def sleep_parameters_many(
     slept = n_sleep > 0
     no_sleep = ~empty & ~slept
     sleep = (padded >= _N1) & (padded <= _SLEEP)
-    sleep_at = np.flatnonzero(sleep)
-    sleep_window = np.searchsorted(offset, sleep_at, side="right") - 1
+    sleep_at = sleep.nonzero()[0]
+    sleep_window = offset.searchsorted(sleep_at, side="right") - 1
     first, _ = _first_per_window(sleep_at, sleep_window, m)
-    last_pos = np.searchsorted(sleep_window, np.arange(m), side="right") - 1
+    last_pos = sleep_window.searchsorted(np.arange(m), side="right") - 1
     last = np.where(slept, sleep_at[np.maximum(last_pos, 0)] if sleep_at.size else 0, 0)
     first_rel, last_rel = first - offset, last - offset
     out["sol_min"] = some(first_rel * ep, slept)
@@ -292,11 +243,11 @@ def sleep_parameters_many(
     starts, lengths = _true_runs(sleep)
     persistent = lengths >= _min_epochs(lps_run_min, ep)
     p_starts = starts[persistent]
-    p_first, p_has = _first_per_window(p_starts, np.searchsorted(offset, p_starts, side="right") - 1, m)
+    p_first, p_has = _first_per_window(p_starts, offset.searchsorted(p_starts, side="right") - 1, m)
     out["lps_min"] = some((p_first - offset).astype(np.float64) * ep, slept & p_has)
 
     w_starts, w_lengths = _true_runs(wake)
-    w_window = np.searchsorted(offset, w_starts, side="right") - 1
+    w_window = offset.searchsorted(w_starts, side="right") - 1
     bout = _min_epochs(min_wake_bout_min, ep) if min_wake_bout_min > 0 else 1
     # a wake run inside the sleep period starts after its first sleep epoch and before its last
     interior = slept[w_window] & (w_starts > first[w_window]) & (w_starts < last[w_window]) & (w_lengths >= bout)
@@ -304,8 +255,8 @@ def sleep_parameters_many(
     out["nwak"] = np.where(slept, nwak, np.where(no_sleep, 0.0, _NAN))
 
     if staged:
-        rem_at = np.flatnonzero(padded == _REM)
-        rem_first, rem_has = _first_per_window(rem_at, np.searchsorted(offset, rem_at, side="right") - 1, m)
+        rem_at = (padded == _REM).nonzero()[0]
+        rem_first, rem_has = _first_per_window(rem_at, offset.searchsorted(rem_at, side="right") - 1, m)
         out["rem_latency_min"] = some((rem_first - first).astype(np.float64) * ep, slept & rem_has)
 
     columns = [out[k].tolist() for k in keys]
