@@ -38,3 +38,29 @@ def test_the_last_hour_is_labelled_even_at_the_right_edge():
     assert "06" in axis[-6:], axis
     wide = str(_axis(pic, 113))[GUTTER:]
     assert "06" in wide[-6:], wide
+
+
+def test_an_empty_night_whose_midnight_does_not_exist_opens_on_18_to_10():
+    # America/Santiago skips 2026-09-06 00:00 (clocks go from 24:00 to 01:00; IANA tz database,
+    # checked with pandas: tz_localize raises on that midnight). The empty night's picture spans
+    # 18:00 to 10:00 wall time, each read by the study's clock rules (model.clock.localize).
+    from sleepfuse.model.clock import localize
+    from sleepfuse.scoring.nights import ScoredParticipant
+    from sleepfuse.tui.widgets.timeline import night_picture
+
+    zone = "America/Santiago"
+    pic = night_picture(ScoredParticipant("P01"), "2026-09-06", zone)
+    assert pic.t0_ns == localize(pd.Timestamp("2026-09-06 18:00"), zone).value
+    assert pic.t1_ns == localize(pd.Timestamp("2026-09-07 10:00"), zone).value
+    assert (pic.t1_ns - pic.t0_ns) == 16 * 3600 * 10**9
+
+
+def test_naive_times_follow_the_study_s_clock_rules():
+    # A naive time in the autumn repeat is its first pass, one in the spring gap is read with the offset
+    # before the change (SLEEP_PARAMETERS.md "Time, nights and intervals"), as every reader reads it.
+    from sleepfuse.model.clock import localize
+    from sleepfuse.tui.widgets.timeline import _ns
+
+    for wall in ("2026-11-01 01:30", "2026-03-08 02:30", "2026-10-29 23:00"):
+        assert _ns(pd.Timestamp(wall), ZONE) == localize(pd.Timestamp(wall), ZONE).value
+    assert _ns(pd.Timestamp("2026-03-08 02:30"), ZONE) == pd.Timestamp("2026-03-08T03:30:00-05:00").value

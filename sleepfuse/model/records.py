@@ -29,8 +29,29 @@ class Problem:
     participant: str | None = None  # set when one file holds many participants
 
 
+class EpochGrid:
+    """Epochs of ``epoch_s`` seconds, contiguous in elapsed time from ``start`` (the start of epoch 0);
+    the record says how many (``n_epochs``). Shared by hypnograms and actigraphy records."""
+
+    start: pd.Timestamp
+    epoch_s: float
+
+    @property
+    def n_epochs(self) -> int:  # pragma: no cover - each record defines it
+        raise NotImplementedError
+
+    @property
+    def end(self) -> pd.Timestamp:
+        """The end of the last epoch."""
+        return self.start + pd.Timedelta(seconds=self.epoch_s * self.n_epochs)
+
+    def epoch_times(self) -> pd.DatetimeIndex:
+        """Start time of every epoch (tz-aware)."""
+        return self.start + pd.to_timedelta(np.arange(self.n_epochs) * self.epoch_s, unit="s")
+
+
 @dataclass
-class Hypnogram:
+class Hypnogram(EpochGrid):
     """A PSG hypnogram: one stage code (sleepfuse.model.stages.Stage) per epoch.
 
     ``start`` is the start of epoch 0; epochs are ``epoch_s`` seconds long and
@@ -54,17 +75,9 @@ class Hypnogram:
     def n_epochs(self) -> int:
         return int(self.stages.size)
 
-    @property
-    def end(self) -> pd.Timestamp:
-        return self.start + pd.Timedelta(seconds=self.epoch_s * self.n_epochs)
-
-    def epoch_times(self) -> pd.DatetimeIndex:
-        """Start time of every epoch (tz-aware)."""
-        return self.start + pd.to_timedelta(np.arange(self.n_epochs) * self.epoch_s, unit="s")
-
 
 @dataclass
-class ActigraphyRecord:
+class ActigraphyRecord(EpochGrid):
     """Activity counts on a regular epoch grid (gaps filled with NaN counts).
 
     ``start`` is the first epoch's start; epoch i starts at start + i·epoch_s
@@ -84,13 +97,6 @@ class ActigraphyRecord:
     @property
     def n_epochs(self) -> int:
         return int(self.counts.size)
-
-    @property
-    def end(self) -> pd.Timestamp:
-        return self.start + pd.Timedelta(seconds=self.epoch_s * self.n_epochs)
-
-    def epoch_times(self) -> pd.DatetimeIndex:
-        return self.start + pd.to_timedelta(np.arange(self.n_epochs) * self.epoch_s, unit="s")
 
 
 @dataclass

@@ -17,6 +17,7 @@ import pandas as pd
 from rich.text import Text
 from textual.widget import Widget
 
+from sleepfuse.model.clock import localize
 from sleepfuse.model.stages import Stage
 
 NS_PER_S = 1_000_000_000
@@ -59,10 +60,8 @@ class NightPicture:
 
 
 def _ns(ts, tz: str) -> int:
-    ts = pd.Timestamp(ts)
-    if ts.tzinfo is None:
-        ts = ts.tz_localize(tz, ambiguous=True, nonexistent="shift_forward")
-    return int(ts.value)
+    """UTC nanoseconds of a time; a naive one is a wall-clock time in ``tz`` (the study's rules, model.clock)."""
+    return int(localize(ts, tz).value)
 
 
 def night_picture(scored, night: str, timezone: str) -> NightPicture:
@@ -90,7 +89,7 @@ def night_picture(scored, night: str, timezone: str) -> NightPicture:
         pad = 30 * 60 * NS_PER_S
         t0, t1 = min(edges) - pad, max(edges) + pad
     else:  # nothing but a day: show 18:00 to 10:00
-        base = pd.Timestamp(night).tz_localize(timezone)
+        base = pd.Timestamp(night)
         t0, t1 = _ns(base + pd.Timedelta(hours=18), timezone), _ns(base + pd.Timedelta(hours=34), timezone)
     pic = NightPicture(scored.participant, night, timezone, t0, t1, diary=diary, windows=windows)
     if h is not None:
