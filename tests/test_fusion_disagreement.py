@@ -97,7 +97,7 @@ def test_demo_study_off_wrist_night_ranks_first():
     """The invented demo study's P04 wore no watch for 130 min on 2026-11-01 (sample_records/generate.py)."""
     from pathlib import Path
 
-    from sleepfuse.run.participant import run_study
+    from sleepfuse.run.engine import run_study
 
     result = run_study(Path(__file__).resolve().parents[1] / "sample_records", keep_detail=False)
     ranked = rank_disagreements(result.nights, "diary", "actigraphy", "tst_min",

@@ -15,7 +15,7 @@ import pytest
 from sleepfuse.model.errors import ReadError
 from sleepfuse.model.stages import Stage
 from sleepfuse.readers.actigraphy import read_actigraphy
-from sleepfuse.run.participant import run_study
+from sleepfuse.run.engine import run_study
 from sleepfuse.scoring.actigraphy import cole_kripke_index, epochs_to_minutes, sadeh_terms
 from sleepfuse.scoring.parameters import sleep_parameters, sleep_parameters_many
 

@@ -9,7 +9,7 @@ import pandas as pd
 import pytest
 
 from lab_files import SAMPLE, actigraphy_styles, clean_study, diary_styles, psg_as_text, resave
-from sleepfuse.run.participant import run_study
+from sleepfuse.run.engine import run_study
 
 PAIRS = list(zip(actigraphy_styles(), [*diary_styles(), "workbook_xlsx"]))
 

@@ -7,7 +7,7 @@ import datetime as dt
 import numpy as np
 import pandas as pd
 
-from sleepfuse.run.participant import run_study
+from sleepfuse.run.engine import run_study
 from sleepfuse.model.records import Hypnogram
 from sleepfuse.scoring.opportunity import (
     RULE_DETECTOR,

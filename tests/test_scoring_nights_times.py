@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from sleepfuse.run.participant import run_study
+from sleepfuse.run.engine import run_study
 from sleepfuse.scoring.nights import _iso
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_records"

@@ -15,7 +15,7 @@ import pytest
 from textual.widgets import DataTable, Input, Static
 
 from sleepfuse import RESEARCH_CAUTION
-from sleepfuse.run.participant import run_study
+from sleepfuse.run.engine import run_study
 from sleepfuse.study.review import default_reviewer
 from sleepfuse.tui.app import create_app
 from sleepfuse.tui.screens.agreement import AgreementScreen

@@ -12,7 +12,7 @@ import pytest
 from textual.widgets import DataTable, Input, Static
 
 from sleepfuse.explore.names import EXPLORATORY_CAUTION
-from sleepfuse.run.participant import run_study
+from sleepfuse.run.engine import run_study
 from sleepfuse.tui.app import create_app
 from sleepfuse.tui.screens.explore import ExploreScreen
 from sleepfuse.tui.screens.help import HelpScreen

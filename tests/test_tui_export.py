@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 from textual.widgets import Checkbox, Input, Static
 
-from sleepfuse.run.participant import run_study
+from sleepfuse.run.engine import run_study
 from sleepfuse.tui.app import create_app
 from sleepfuse.tui.recent import remember_export, remembered_export
 from sleepfuse.tui.screens.export import ExportScreen

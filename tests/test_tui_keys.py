@@ -12,7 +12,7 @@ from __future__ import annotations
 import pytest
 from textual.widgets import DataTable
 
-from sleepfuse.run.participant import run_study
+from sleepfuse.run.engine import run_study
 from sleepfuse.tui.app import create_app
 from sleepfuse.tui.screens.agreement import AgreementScreen
 from sleepfuse.tui.screens.disagreements import DisagreementScreen

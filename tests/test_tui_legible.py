@@ -6,7 +6,7 @@ import pytest
 from rich.style import Style
 from textual.color import Color
 
-from sleepfuse.run.participant import run_study
+from sleepfuse.run.engine import run_study
 from sleepfuse.tui.app import create_app
 from sleepfuse.tui.legible import MIN_CONTRAST, LegibleMonochrome, legible_style
 

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import pytest
 
-from sleepfuse.run.participant import run_study
+from sleepfuse.run.engine import run_study
 from sleepfuse.tui.app import create_app
 
 from tui_helpers import SAMPLE, goto_cell, settle

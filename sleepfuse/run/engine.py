@@ -3,7 +3,10 @@
 ``run_participant`` is what every front end runs for a participant (batch, the
 terminal app's session, Dask workers); ``run_jobs`` runs many of them in this
 process, in a process pool or on a Dask cluster, and hands each outcome back
-as it arrives. Output tables are built elsewhere (``run.tables``).
+as it arrives (``run.cache.run_cached`` puts the cache in front of it for batch
+and the app). ``run_study_jobs`` runs a whole study in this process (``check``,
+``score``); ``run_study`` adds its tables (tests, preloaded apps). Output
+tables are built in ``run.tables``.
 """
 
 from __future__ import annotations
@@ -14,13 +17,17 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable
 
+import pandas as pd
+
 from sleepfuse.fusion.epoch_table import epoch_rows
-from sleepfuse.model.config import StudyConfig
+from sleepfuse.model.config import StudyConfig, load_config
 from sleepfuse.model.qc import QCEntry, QCLog, study_path
 from sleepfuse.run._alloc import tune_allocator
 from sleepfuse.run.participant import ParticipantJob, not_processed, plan_jobs, process_participant
-from sleepfuse.scoring.nights import ScoredParticipant
+from sleepfuse.run.tables import night_table_of
+from sleepfuse.scoring.nights import ScoredParticipant, rhythm_table
 from sleepfuse.study.folder import sha256_of
+from sleepfuse.study.review import load_decisions
 
 
 @dataclass
@@ -66,18 +73,43 @@ def run_participant(config: StudyConfig, job: ParticipantJob, inputs: list[dict]
 
 
 def run_study_jobs(config: StudyConfig, *, progress: Callable[[str, int, int], None] | None = None,
-                   workers: int = 1) -> tuple[list[ParticipantOutcome], QCLog, list[Path]]:
+                   workers: int = 1, keep_detail: bool = False) -> tuple[list[ParticipantOutcome], QCLog, list[Path]]:
     """Every participant run as batch runs them; the QC log holds what reading, scoring and epoch agreement found.
 
-    ``check`` and ``score`` use this, so their QC counts are the counts of
-    ``batch`` and of the app for the same study.
+    ``check``, ``score`` and ``run_study`` use this, so their QC counts are the
+    counts of ``batch`` and of the app for the same study.
     """
     qc = QCLog()
     jobs, files = plan_jobs(config, qc)
-    outcomes = run_jobs(config, jobs, workers, progress)
+    outcomes = run_jobs(config, jobs, workers, progress, keep_detail=keep_detail)
     for o in outcomes:
         qc.extend(o.qc)
     return outcomes, qc, files
+
+
+@dataclass
+class StudyResult:
+    """The scored study: night table, rhythm per participant, QC log, per-participant detail, epoch rows."""
+
+    config: StudyConfig
+    nights: pd.DataFrame
+    rhythm: pd.DataFrame
+    qc: QCLog
+    participants: dict[str, ScoredParticipant] = field(default_factory=dict)
+    files: list[Path] = field(default_factory=list)
+    epoch_rows: list[dict] = field(default_factory=list)
+
+
+def run_study(root: str | Path, *, config: StudyConfig | None = None,
+              progress: Callable[[str, int, int], None] | None = None, keep_detail: bool = True) -> StudyResult:
+    """Score a whole study in this process as batch does (no cache), with its night table and review
+    decisions: for tests and the app's preloaded studies. ``keep_detail`` keeps every participant's epoch series."""
+    config = config if config is not None else load_config(root)
+    outcomes, qc, files = run_study_jobs(config, progress=progress, keep_detail=keep_detail)
+    nights = night_table_of(outcomes, load_decisions(config.root, qc), qc)
+    return StudyResult(config, nights, rhythm_table(outcomes), qc,
+                       participants={o.participant: o.detail for o in outcomes if o.detail is not None},
+                       files=files, epoch_rows=[r for o in outcomes for r in o.epoch_rows])
 
 
 def job_inputs(config: StudyConfig, job: ParticipantJob, digests: dict[Path, str] | None = None) -> list[dict]:

@@ -1,34 +1,18 @@
-"""One pipeline for both front ends: read a study, score every participant, build the night table.
+"""The unit of work: one participant's files read and scored.
 
-``process_participant`` is the unit of work (one participant's files in,
-scored nights and QC entries out), so batch can run participants one at a
-time or in parallel workers with bounded memory.
+``process_participant`` takes one participant's files in and gives scored
+nights and QC entries out (and whether it went through), so participants run
+one at a time or in parallel workers with bounded memory (``run.engine``).
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
-from pathlib import Path
-from typing import Callable, Iterable, NamedTuple
+from typing import NamedTuple
 
-import pandas as pd
-
-from sleepfuse.model.config import StudyConfig, load_config
+from sleepfuse.model.config import StudyConfig
 from sleepfuse.model.qc import QCEntry, QCLog
-from sleepfuse.scoring.nights import ScoredParticipant, rhythm_table, score_participant
+from sleepfuse.scoring.nights import ScoredParticipant, score_participant
 from sleepfuse.study.folder import ParticipantJob, load_participant, plan_jobs  # noqa: F401  (re-exported)
-
-
-@dataclass
-class StudyResult:
-    """The scored study: night table, rhythm per participant, QC log, per-participant detail."""
-
-    config: StudyConfig
-    nights: pd.DataFrame
-    rhythm: pd.DataFrame
-    qc: QCLog
-    participants: dict[str, ScoredParticipant] = field(default_factory=dict)
-    files: list[Path] = field(default_factory=list)
 
 
 class Processed(NamedTuple):
@@ -55,40 +39,3 @@ def process_participant(config: StudyConfig, job: ParticipantJob) -> Processed:
 def not_processed(exc: BaseException) -> str:
     """The QC message of a participant an unexpected failure stopped."""
     return f"participant not processed: {type(exc).__name__}: {exc}"
-
-
-def run_study(
-    root: str | Path,
-    *,
-    config: StudyConfig | None = None,
-    progress: Callable[[str, int, int], None] | None = None,
-    keep_detail: bool = True,
-) -> StudyResult:
-    """Score a whole study in this process, participant by participant."""
-    config = config if config is not None else load_config(root)
-    qc = QCLog()
-    jobs, files = plan_jobs(config, qc)
-    scored: list[ScoredParticipant] = []
-    for i, job in enumerate(jobs):
-        if progress:
-            progress(job.participant, i, len(jobs))
-        s, entries, _ = process_participant(config, job)
-        qc.extend(entries)
-        scored.append(s)
-    return assemble(config, scored, qc, files, keep_detail=keep_detail)
-
-
-def assemble(config: StudyConfig, scored: Iterable[ScoredParticipant], qc: QCLog, files: list[Path],
-             *, keep_detail: bool = True) -> StudyResult:
-    from sleepfuse.run.tables import night_table_of
-    from sleepfuse.study.review import load_decisions
-
-    scored = list(scored)
-    return StudyResult(
-        config=config,
-        nights=night_table_of(scored, load_decisions(config.root, qc), qc),
-        rhythm=rhythm_table(scored),
-        qc=qc,
-        participants={s.participant: s for s in scored} if keep_detail else {},
-        files=files,
-    )

@@ -22,13 +22,13 @@ import numpy as np
 import pandas as pd
 
 from sleepfuse.fusion.disagreement import rank_disagreements
-from sleepfuse.fusion.epoch_table import epoch_rows
 from sleepfuse.fusion.pairs import agreement_table, paired_nights, shared_parameters
 from sleepfuse.model.config import StudyConfig, load_config
 from sleepfuse.model.definitions import PAIRS, PARAMETERS, pair_name
 from sleepfuse.model.qc import QCEntry, QCLog
 from sleepfuse.run.cache import run_cached
-from sleepfuse.run.participant import ParticipantJob, StudyResult, plan_jobs, process_participant
+from sleepfuse.run.engine import StudyResult
+from sleepfuse.run.participant import ParticipantJob, plan_jobs, process_participant
 from sleepfuse.run.tables import night_table_of
 from sleepfuse.scoring.nights import SOURCE_PARAMETERS, ScoredParticipant, rhythm_table
 from sleepfuse.study.review import Decision, apply_decisions, effective, load_decisions, record_decision
@@ -141,9 +141,8 @@ class Workspace:
         """Wrap an already scored study (run_study with keep_detail=True), e.g. for tests."""
         scored = list(result.participants.values())
         qc = QCLog(list(result.qc.entries))
-        rows = [r for s in scored for r in epoch_rows(result.config, s, QCLog())]
         jobs, _ = plan_jobs(result.config, QCLog())
-        return cls(Path(root), result.config, scored, qc, rows, jobs={j.participant: j for j in jobs})
+        return cls(Path(root), result.config, scored, qc, list(result.epoch_rows), jobs={j.participant: j for j in jobs})
 
     @classmethod
     def load(cls, root: str | Path) -> "Workspace":

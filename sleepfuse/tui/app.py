@@ -11,7 +11,7 @@ from pathlib import Path
 from textual.app import App
 from textual.binding import Binding
 
-from sleepfuse.run.participant import StudyResult
+from sleepfuse.run.engine import StudyResult
 from sleepfuse.run.session import PairChoice, Workspace
 from .keys import KeysInOrder
 from .legible import use_legible_monochrome
