@@ -8,6 +8,7 @@ import numpy as np
 import pandas as pd
 
 from sleepfuse.model.definitions import PARAMETERS, SOURCE_NAMES, WINDOW_NOTE
+from sleepfuse.model.records import SOURCES
 from ..scoring.nights import SOURCE_PARAMETERS
 from ..scoring.opportunity import MARKER_RULE
 from ..scoring.rest_interval import REST_INTERVAL_RULE
@@ -25,7 +26,6 @@ _WINDOW_RULES = {
     "diary": "Sleep opportunity: tried to sleep to out of bed; rows with impossible times are rejected (QC error).",
 }
 CODEBOOK_COLUMNS = ["name", "source", "parameter", "statistic", "unit", "definition", "n_nonmissing", "skewness"]
-SOURCES = ("psg", "actigraphy", "diary")
 
 
 def feature_columns() -> list[tuple[str, str, str, str]]:

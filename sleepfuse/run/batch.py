@@ -36,9 +36,9 @@ from sleepfuse.model.definitions import DEFINITION_CHOICES
 from sleepfuse.fusion.agreement import agreement_provenance
 from sleepfuse.run.outdir import (PROVENANCE, check_out, earlier_outputs, foreign_files, make_out, remove_leftover_temps,
                                   remove_stale, what_is_left)
-from sleepfuse.run.engine import input_record, process_pool, rel_path
+from sleepfuse.run.engine import input_record, process_pool
 from sleepfuse.run.participant import plan_jobs
-from sleepfuse.model.qc import QCLog
+from sleepfuse.model.qc import QCLog, study_path
 from sleepfuse.run.tables import OUTPUT_TABLES, build_tables
 from sleepfuse.study.review import REVIEW_FILE, load_decisions
 from sleepfuse.scoring.actigraphy import algorithm_provenance as actigraphy_provenance
@@ -186,7 +186,7 @@ def _write_outputs(study, config, options, tables, outcomes, files, decisions, c
         written.append(write_table(tables[name], out / name, options.format))
     inputs = [i for o in outcomes for i in o.inputs]
     seen = {i["file"] for i in inputs}
-    inputs += [input_record(config, p, "diary") for p in files if rel_path(config, p) not in seen]
+    inputs += [input_record(config, p, "diary") for p in files if study_path(p, config.root) not in seen]
     svgs: dict = {}  # figures drawn for plots/, reused by the report
     if options.plots:
         from sleepfuse.output.figures import write_plots

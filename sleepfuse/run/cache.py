@@ -25,8 +25,8 @@ from typing import TYPE_CHECKING, Callable, Iterable
 import numpy as np
 
 from sleepfuse import __version__
-from sleepfuse.model.qc import QCEntry, QCLog
-from sleepfuse.run.engine import ParticipantOutcome, hash_inputs, rel_path, run_jobs
+from sleepfuse.model.qc import QCEntry, QCLog, study_path
+from sleepfuse.run.engine import ParticipantOutcome, hash_inputs, run_jobs
 
 if TYPE_CHECKING:  # pragma: no cover
     from sleepfuse.model.config import StudyConfig
@@ -333,7 +333,7 @@ def run_cached(config: "StudyConfig", jobs: "list[ParticipantJob]", qc: QCLog,
     for k, found in zip(known, hash_inputs(config, [jobs[k] for k in known], workers)):
         inputs[k] = found
 
-    report.used, report.path = True, rel_path(config, cache.path)
+    report.used, report.path = True, study_path(cache.path, config.root)
     cfg, libs = config_fingerprint(config), library_versions()
     keys: list[str | None] = []
     hits: list = []

@@ -134,18 +134,14 @@ def input_record(config: StudyConfig, path: Path, source: str, digest: str | Non
         stat = path.stat()
         digest = digest or sha256_of(path)
     except OSError as exc:
-        return {"file": rel_path(config, path), "source": source, "sha256": "", "error": str(exc)}
+        return {"file": study_path(path, config.root), "source": source, "sha256": "", "error": str(exc)}
     return {
-        "file": rel_path(config, path),
+        "file": study_path(path, config.root),
         "source": source,
         "sha256": digest,
         "bytes": stat.st_size,
         "modified": dt.datetime.fromtimestamp(stat.st_mtime, dt.timezone.utc).isoformat(),
     }
-
-
-def rel_path(config: StudyConfig, path: Path) -> str:
-    return study_path(path, config.root)
 
 
 def run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,

@@ -26,6 +26,7 @@ from sleepfuse.fusion.pairs import agreement_table, paired_nights, shared_parame
 from sleepfuse.model.config import StudyConfig, load_config
 from sleepfuse.model.definitions import PAIRS, PARAMETERS, pair_name
 from sleepfuse.model.qc import QCEntry, QCLog
+from sleepfuse.model.records import SOURCES
 from sleepfuse.run.cache import run_cached
 from sleepfuse.run.engine import StudyResult
 from sleepfuse.run.participant import ParticipantJob, plan_jobs, process_participant
@@ -33,7 +34,6 @@ from sleepfuse.run.tables import night_table_of
 from sleepfuse.scoring.nights import SOURCE_PARAMETERS, ScoredParticipant, rhythm_table
 from sleepfuse.study.review import Decision, apply_decisions, effective, load_decisions, record_decision
 
-SOURCES = ("psg", "actigraphy", "diary")
 SOURCE_LETTER = {"psg": "P", "actigraphy": "A", "diary": "D"}
 KEEP_ALL_DETAIL = 64  # studies up to this size keep every participant's epoch detail
 DETAIL_CACHE = 16  # otherwise: this many participants' detail, most recent first
@@ -134,7 +134,7 @@ class Workspace:
         self.base_nights = night_table_of(scored)  # before review decisions
         self.rhythm = rhythm_table(scored)  # IS, IV, M10, L5, RA per participant (cached participants too)
         self.refresh(qc)  # the review file's problems are reported once, when the study opens
-        self._problems = self._count_problems(qc.entries)
+        self._problems = problems_per_night(qc.entries)
 
     @classmethod
     def from_result(cls, root: str | Path, result: StudyResult) -> "Workspace":
@@ -171,14 +171,6 @@ class Workspace:
             return []
         days = pd.to_datetime(self.nights["night"])
         return [d.date().isoformat() for d in pd.date_range(days.min(), days.max(), freq="D")]
-
-    @staticmethod
-    def _count_problems(entries: list[QCEntry]) -> dict[tuple[str, str], int]:
-        out: dict[tuple[str, str], int] = {}
-        for e in entries:
-            if e.severity != "info" and e.participant and e.night:
-                out[(e.participant, e.night)] = out.get((e.participant, e.night), 0) + 1
-        return out
 
     def cells(self, nights: pd.DataFrame | None = None) -> dict[tuple[str, str], NightCell]:
         """(participant, night) -> NightCell for every participant-night in the (given) night table."""
@@ -287,6 +279,15 @@ class Workspace:
                             timezone=self.config.timezone)
         self.refresh()
         return d
+
+
+def problems_per_night(entries: list[QCEntry]) -> dict[tuple[str, str], int]:
+    """Warnings and errors per (participant, night): the '!' of a night cell."""
+    out: dict[tuple[str, str], int] = {}
+    for e in entries:
+        if e.severity != "info" and e.participant and e.night:
+            out[(e.participant, e.night)] = out.get((e.participant, e.night), 0) + 1
+    return out
 
 
 def s_has(source: str, parameter: str) -> bool:

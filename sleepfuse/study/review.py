@@ -20,11 +20,11 @@ import pandas as pd
 
 from sleepfuse.output.files import write_text
 from sleepfuse.model.qc import QCLog
+from sleepfuse.model.records import SOURCES
 
 REVIEW_FILE = "sleepfuse-review.csv"
 REVIEW_COLUMNS = ["participant", "night", "source", "decision", "reason", "decided_at", "reviewer"]
 DECISIONS = ("exclude", "include")
-SOURCES = ("psg", "actigraphy", "diary")
 
 
 @dataclass(frozen=True)

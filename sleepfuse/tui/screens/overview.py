@@ -22,7 +22,7 @@ from textual.worker import get_current_worker
 from sleepfuse.model.definitions import SOURCE_NAMES, instrument_nights
 from sleepfuse.model.numbers import plural
 from sleepfuse.model.qc import qc_summary
-from sleepfuse.run.session import SOURCES, StudyLoader, Workspace, night_cells
+from sleepfuse.run.session import SOURCES, StudyLoader, Workspace, night_cells, problems_per_night
 from ..messages import ParticipantsScored, StudyFailed, StudyLoaded, StudyPlanned
 from ..widgets.appbar import AppBar
 from ..widgets.table import CursorTable
@@ -139,7 +139,7 @@ class OverviewScreen(Screen):
                 return
             part = pids[start:starts[k + 1] if k + 1 < len(starts) else len(pids)]
             rows = loader.score(part)
-            cells = night_cells(rows, Workspace._count_problems(loader.qc.entries))
+            cells = night_cells(rows, problems_per_night(loader.qc.entries))
             self.post_message(ParticipantsScored(rows, cells, start + len(part), len(pids)))
         self.post_message(StudyLoaded(loader.finish()))
 
