@@ -182,14 +182,20 @@ def test_identities_hold_for_random_hypnograms(codes, epoch_s, bout):
 
 
 def test_true_runs_equal_the_true_rows_of_the_run_length_encoding():
-    # Common practice: run-length encoding; the shortcut keeps only the runs of True.
-    from sleepfuse.scoring.parameters import _runs, _true_runs
+    # Common practice: run-length encoding, checked against the standard library's itertools.groupby;
+    # true_runs keeps only the runs of True.
+    import itertools
+
+    from sleepfuse.scoring.runs import runs, true_runs
 
     rng = np.random.default_rng(5)
     for n in (0, 1, 2, 7, 300):
         for p in (0.0, 0.3, 0.9, 1.0):
             x = rng.random(n) < p
-            starts, lengths, values = _runs(x)
-            t_starts, t_lengths = _true_runs(x)
+            starts, lengths, values = runs(x)
+            groups = [(bool(v), len(list(g))) for v, g in itertools.groupby(x.tolist())]
+            assert list(zip(values.tolist(), lengths.tolist())) == groups
+            assert starts.tolist() == np.cumsum([0] + [g[1] for g in groups])[:-1].tolist()
+            t_starts, t_lengths = true_runs(x)
             np.testing.assert_array_equal(t_starts, starts[values.astype(bool)])
             np.testing.assert_array_equal(t_lengths, lengths[values.astype(bool)])

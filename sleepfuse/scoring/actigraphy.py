@@ -49,6 +49,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .minutes import _as_1d_float, _as_counts, epochs_to_minutes  # noqa: F401 (epochs_to_minutes: public here too)
+from .runs import fill_runs, runs
 
 if TYPE_CHECKING:  # pragma: no cover
     from sleepfuse.model.config import ActigraphySection
@@ -73,32 +74,6 @@ SADEH_OFFSET = 7.601
 SADEH_WEIGHTS = {"mw5": -0.065, "nat": -1.08, "sd6": -0.056, "lg": -0.703}
 SADEH_HALF_WINDOW = 5  # MW5 / NAT window: the epoch ± 5 epochs (11 min)
 SADEH_SD_WINDOW = 6  # SD over the epoch and the five before it
-
-
-def _run_bounds(x: np.ndarray) -> np.ndarray:
-    """Run boundaries of a non-empty 1-D array: 0, every i with x[i] != x[i−1], then x.size.
-
-    Run r is x[b[r]:b[r + 1]]; the same runs as ``parameters._runs`` (starts =
-    b[:-1], lengths = diff(b)), without building the lengths and values.
-    """
-    change = np.flatnonzero(x[1:] != x[:-1])
-    bounds = np.empty(change.size + 2, dtype=np.intp)
-    bounds[0] = 0
-    np.add(change, 1, out=bounds[1:-1])
-    bounds[-1] = x.size
-    return bounds
-
-
-def _fill_runs(out: np.ndarray, starts: np.ndarray, lengths: np.ndarray, value: bool) -> None:
-    """out[s : s + l] = value for every (s, l) of ``starts``/``lengths`` (disjoint runs, l ≥ 0).
-
-    Writes only the minutes of the runs (their indices built from the run
-    table), so its cost follows the minutes rescored, not the series length.
-    """
-    total = int(lengths.sum())
-    if total:
-        offsets = np.cumsum(lengths) - lengths  # where each run begins in the index list
-        out[np.arange(total) + np.repeat(starts - offsets, lengths)] = value
 
 
 def cole_kripke_index(
@@ -144,12 +119,6 @@ def cole_kripke_index(
 
 
 WEBSTER_ORDERS = ("sequential", "parallel")
-
-
-def _runs(state: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Maximal runs of a non-empty int8 series: (starts, lengths, values)."""
-    b = _run_bounds(state)
-    return b[:-1], np.diff(b), state[b[:-1]]
 
 
 def _neighbour_wake(lengths: np.ndarray, values: np.ndarray, idx: np.ndarray, step: int) -> np.ndarray:
@@ -202,7 +171,7 @@ def webster_rescore(sleep: np.ndarray, unknown: np.ndarray | None = None, *, ord
     out = state == _SLEEP
     if s.size == 0:
         return out
-    start, length, value = _runs(state)
+    start, length, value = runs(state)
     sl = np.flatnonzero(value == _SLEEP)
     if sl.size == 0:
         return out
@@ -212,17 +181,17 @@ def webster_rescore(sleep: np.ndarray, unknown: np.ndarray | None = None, *, ord
     for min_wake, k in WEBSTER_AFTER_WAKE:  # ascending k: later rules override
         k_after = np.where(prev_wake >= min_wake, k, k_after)
     cut = np.minimum(k_after, length[sl])
-    _fill_runs(out, start[sl], cut, False)
+    fill_runs(out, start[sl], cut, False)
     # Rules 4-5 on the runs left by rules 1-3 (sequential) or on the original runs (parallel).
     judged = state if order == "parallel" else np.where(state == _SLEEP, out.astype(np.int8), state)
-    start2, length2, value2 = _runs(judged)
+    start2, length2, value2 = runs(judged)
     sl2 = np.flatnonzero(value2 == _SLEEP)
     before = _neighbour_wake(length2, value2, sl2, -1)
     after = _neighbour_wake(length2, value2, sl2, +1)
     flanked = np.zeros(sl2.size, dtype=bool)
     for max_sleep, min_wake in WEBSTER_FLANKED:
         flanked |= (length2[sl2] <= max_sleep) & (before >= min_wake) & (after >= min_wake)
-    _fill_runs(out, start2[sl2][flanked], length2[sl2][flanked], False)
+    fill_runs(out, start2[sl2][flanked], length2[sl2][flanked], False)
     return out
 
 

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .actigraphy import _fill_runs, _run_bounds
+from .runs import fill_runs, run_bounds
 
 
 def choi_nonwear(
@@ -46,7 +46,7 @@ def choi_nonwear(
 
     # 0 = zero count, 1 = non-zero count, 2 = missing (NaN != 0 is True: 1 + 1).
     state = np.add(a != 0, np.isnan(a), dtype=np.int8)
-    bounds = _run_bounds(state)
+    bounds = run_bounds(state)
     starts, lengths = bounds[:-1], np.diff(bounds)
     values = state[starts]
     m = starts.size
@@ -69,9 +69,9 @@ def choi_nonwear(
     # Periods: maximal quiet stretches of >= min_length_min minutes. A stretch
     # is a group of consecutive runs with the same ``quiet``, found on the run
     # table: the same stretches as the runs of np.repeat(quiet, lengths).
-    groups = _run_bounds(quiet)  # run indices where ``quiet`` changes
+    groups = run_bounds(quiet)  # run indices where ``quiet`` changes
     g_start, g_end = bounds[groups[:-1]], bounds[groups[1:]]
     long_enough = quiet[groups[:-1]] & (g_end - g_start >= min_length_min)
     out = np.zeros(a.size, dtype=bool)
-    _fill_runs(out, g_start[long_enough], (g_end - g_start)[long_enough], True)
+    fill_runs(out, g_start[long_enough], (g_end - g_start)[long_enough], True)
     return out

@@ -17,6 +17,8 @@ import numpy as np
 
 from sleepfuse.model.stages import Stage
 
+from .runs import true_runs
+
 COMMON_PARAMETERS = (
     "tib_min",
     "sol_min",
@@ -48,28 +50,6 @@ _CODES_CONTIGUOUS = set(_VALID_CODES.tolist()) == set(range(_CODE_MIN, _CODE_MAX
 _WAKE, _N1, _N2, _N3, _REM = int(Stage.WAKE), int(Stage.N1), int(Stage.N2), int(Stage.N3), int(Stage.REM)
 _SLEEP, _UNSCORED, _OFFWRIST = int(Stage.SLEEP), int(Stage.UNSCORED), int(Stage.OFFWRIST)
 _NAN = float("nan")
-
-
-def _runs(x: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Run-length encoding of a 1-D integer/bool array: (starts, lengths, values)."""
-    x = np.asarray(x)
-    n = x.size
-    if n == 0:
-        empty = np.zeros(0, dtype=np.intp)
-        return empty, empty, x[:0]
-    change = np.flatnonzero(x[1:] != x[:-1]) + 1
-    starts = np.concatenate(([0], change))
-    lengths = np.diff(np.concatenate((starts, [n])))
-    return starts, lengths, x[starts]
-
-
-def _true_runs(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Starts and lengths of the runs of True in a 1-D bool array (the True rows of ``_runs``)."""
-    framed = np.zeros(x.size + 2, dtype=np.int8)  # a False before and after
-    framed[1:-1] = x
-    edges = framed[1:] - framed[:-1]
-    starts = (edges == 1).nonzero()[0]
-    return starts, (edges == -1).nonzero()[0] - starts
 
 
 def _min_epochs(minutes: float, epoch_min: float, *, at_least: int = 1) -> int:
@@ -240,13 +220,13 @@ def sleep_parameters_many(
     waso = (wake_before[np.where(slept, last + 1, 0)] - wake_before[np.where(slept, first, 0)]).astype(np.float64)
     out["waso_min"] = np.where(slept, waso * ep, np.where(no_sleep, 0.0, _NAN))
 
-    starts, lengths = _true_runs(sleep)
+    starts, lengths = true_runs(sleep)
     persistent = lengths >= _min_epochs(lps_run_min, ep)
     p_starts = starts[persistent]
     p_first, p_has = _first_per_window(p_starts, offset.searchsorted(p_starts, side="right") - 1, m)
     out["lps_min"] = some((p_first - offset).astype(np.float64) * ep, slept & p_has)
 
-    w_starts, w_lengths = _true_runs(wake)
+    w_starts, w_lengths = true_runs(wake)
     w_window = offset.searchsorted(w_starts, side="right") - 1
     bout = _min_epochs(min_wake_bout_min, ep) if min_wake_bout_min > 0 else 1
     # a wake run inside the sleep period starts after its first sleep epoch and before its last

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .parameters import _runs
+from .runs import runs
 
 REST_INTERVAL_RULE: str = (
     "Automatic rest interval (sleepfuse rule, no published source): within one "
@@ -53,7 +53,7 @@ def rest_interval(
 
     # 0 = wake, 1 = sleep, 2 = invalid (off-wrist / missing).
     state = np.where(v, s.astype(np.int8), 2).astype(np.int8)
-    starts, lengths, values = _runs(state)
+    starts, lengths, values = runs(state)
     m = starts.size
     prev_val = np.full(m, -1, dtype=np.int8)
     next_val = np.full(m, -1, dtype=np.int8)
@@ -63,7 +63,7 @@ def rest_interval(
     bridged = (values == 0) & (lengths <= max_gap_min) & (prev_val == 1) & (next_val == 1)
     in_block = np.repeat((values == 1) | bridged, lengths)
 
-    b_starts, b_lengths, b_values = _runs(in_block)
+    b_starts, b_lengths, b_values = runs(in_block)
     if not b_values.any():
         return None
     cand = np.where(b_values, b_lengths, -1)
