@@ -53,7 +53,10 @@ def test_demo_matrix_run_writes_every_output(demo_run, capsys):
     assert "<svg" in (out / "solution.svg").read_text()[:2000]
     models = pd.read_csv(out / "models.csv")
     assert {"family", "K", "loglik", "n_params", "BIC", "converged", "n_iter", "message"} <= set(models.columns)
-    assert len(models) == 2 * 2 * 2                                      # blocks x families x K
+    assert len(models) == 2 * 3 * 2                                      # blocks x families x K
+    assert set(models["family"]) == {"gaussian", "skewnormal", "t"}
+    t_rows = models[models["family"] == "t"]
+    assert t_rows.loc[t_rows["BIC"].notna(), "t_df"].notna().all() and models.loc[models["family"] != "t", "t_df"].isna().all()
     ok = models["BIC"].notna()
     np.testing.assert_allclose(models.loc[ok, "BIC"],
                                -2 * models.loc[ok, "loglik"] + models.loc[ok, "n_params"] * np.log(
@@ -134,7 +137,9 @@ def test_holdout_writes_its_verdict(tmp_path, capsys):
     (["--columns", "no_such_*"], "no_such_"),
     (["--kmax", "0"], "--kmax"),
     (["--max-iter", "0"], "--max-iter"),
-    (["--log", "nothing_like_this"], "nothing_like_this"),
+    (["--log", "nothing_like_this"], "--log = 'nothing_like_this'"),
+    (["--keep", "zzz_*"], "--keep = 'zzz_*'"),
+    (["--bootstrap", "-2"], "--bootstrap"),
     (["--families", "gaussian,student"], "--families"),
     (["--holdout", "1.5"], "--holdout"),
     (["--columns", "diary_*", "--blocks", "psg"], "not both"),

@@ -40,6 +40,30 @@ def test_skewnormal_regression_is_never_below_the_gaussian_and_finds_skewed_erro
     assert ll_s > ll_g + 2.0
 
 
+def test_t_regression_intercept_only_is_scipys_t_mle():
+    # Source: scipy.stats.t.fit (maximum likelihood for df, loc, scale): a regression on no
+    # columns is the intercept only, i.e. the same three-parameter model.
+    from scipy import stats
+
+    y = stats.t.rvs(df=3.0, loc=1.0, scale=0.8, size=300, random_state=4)
+    ll, p = regression_loglik(y, np.empty((300, 0)), "t")
+    df, loc, scale = stats.t.fit(y)
+    assert p == 3
+    assert ll == pytest.approx(float(np.sum(stats.t.logpdf(y, df, loc, scale))), abs=1e-3)
+
+
+def test_t_regression_finds_heavy_tailed_errors():
+    from scipy import stats
+
+    rng = np.random.default_rng(6)
+    s = rng.standard_normal((200, 2))
+    y = s @ [1.0, -0.5] + stats.t.rvs(df=2.5, size=200, random_state=rng)
+    ll_g, _ = regression_loglik(y, s, "gaussian")
+    ll_t, p = regression_loglik(y, s, "t")
+    assert p == 5
+    assert ll_t > ll_g + 5.0
+
+
 def _cohort(tmp_path, seed):
     matrix, participants = hidden_subgroup_cohort(n=200, n_noise=7, seed=seed)
     matrix.to_csv(tmp_path / "matrix.csv", index=False)

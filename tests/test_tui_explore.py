@@ -62,7 +62,7 @@ async def test_clusters_screen_blocks_columns_and_back(demo):
 
         # the default block (all): every (family, K ≤ 3) listed, none fitted, each with its reason
         rows = table_rows(screen)
-        assert len(rows) == 6 and {r[0] for r in rows} == {"gaussian", "skewnormal"}
+        assert len(rows) == 9 and {r[0] for r in rows} == {"gaussian", "skewnormal", "t"}
         assert all(r[-1].startswith("too few participants") for r in rows)
         assert "no model could be fitted" in text(screen, "#status")
         assert "1 left out" in text(screen, "#left-out") and "P07" in text(screen, "#left-out")  # P07 has no PSG
@@ -71,7 +71,7 @@ async def test_clusters_screen_blocks_columns_and_back(demo):
         # K max up to 4 and back: the table follows
         await pilot.press("plus")
         await settle(pilot)
-        assert screen.kmax == 4 and len(table_rows(screen)) == 8
+        assert screen.kmax == 4 and len(table_rows(screen)) == 12
         await pilot.press("minus")
         await settle(pilot)
         assert screen.kmax == 3

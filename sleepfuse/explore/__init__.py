@@ -15,7 +15,7 @@ _EXPORTS = {
     "BLOCKS": "columns", "ColumnSet": "columns", "PreparedData": "columns", "column_sets": "columns",
     "prepare": "columns", "FAMILIES": "names", "EXPLORATORY_CAUTION": "names", "MixtureFit": "mixtures",
     "fit_mixture": "mixtures", "fit_mixtures": "mixtures", "preferred_fit": "mixtures", "BlockResult": "selection",
-    "ExploreResult": "selection", "HoldoutResult": "holdout", "adjusted_rand_index": "selection",
+    "ExploreResult": "selection", "HoldoutResult": "holdout", "adjusted_rand_index": "agreement",
     "explore": "selection", "explore_block": "selection",
 }
 __all__ = sorted(_EXPORTS)

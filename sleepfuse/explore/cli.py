@@ -3,7 +3,7 @@
 Writes models.csv, membership.csv, standardisation.csv, agreement_between_blocks.csv (when
 several blocks), holdout.csv (with --holdout), selected_columns.csv and selection_steps.csv
 (with --select), outcomes.csv, profiles.csv and participants_without_outcomes.csv (with
---outcomes) and the bic/solution figures (PNG + SVG) into --out, atomically.
+--outcomes), bootstrap.csv and bootstrap_summary.csv (with --bootstrap) and the bic/solution figures (PNG + SVG) into --out, atomically.
 
 Messages: progress and the summary go to stdout, once each; only errors go to stderr.
 Exit status: 0 a model was fitted and every output written; 1 nothing could be fitted (the
@@ -30,8 +30,8 @@ if TYPE_CHECKING:
     from sleepfuse.explore.selection import ExploreResult
 
 DESCRIPTION = (
-    "Look for subgroups of participants in a participant x feature matrix with Gaussian and "
-    "skew-normal mixtures (K = 1..kmax) chosen by BIC. " + EXPLORATORY_CAUTION
+    "Look for subgroups of participants in a participant x feature matrix with Gaussian, "
+    "skew-normal and t mixtures (K = 1..kmax) chosen by BIC. " + EXPLORATORY_CAUTION
 )
 
 
@@ -60,6 +60,12 @@ def add_explore_parser(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--select", action="store_true",
                    help="choose the columns first by stepwise BIC (Raftery & Dean 2006), within each block")
     p.add_argument("--keep", metavar="COLUMNS", help="names or glob patterns of columns --select always keeps")
+    p.add_argument("--select-family", dest="select_family", choices=FAMILIES,
+                   help="mixture family of the --select search (default skewnormal when among --families, "
+                        "else the first of --families)")
+    p.add_argument("--bootstrap", type=int, default=0, metavar="B",
+                   help="stability check: refit the preferred model on B resamples of the participants "
+                        "(seeded by --seed) and report the adjusted Rand index against it (default 0 = off)")
     p.add_argument("--outcomes", metavar="TABLE.csv",
                    help="CSV with a 'participant' column and a-priori labels or outcomes to relate to the clusters")
     p.add_argument("--out", required=True, metavar="DIR", help="folder for the outputs (created if needed)")
@@ -88,6 +94,8 @@ def _check_options(args) -> tuple[str, ...]:
         raise ConfigError("--starts", args.starts, "a whole number of at least 1")
     if getattr(args, "max_iter", DEFAULT_MAX_ITER) < 1:
         raise ConfigError("--max-iter", args.max_iter, "a whole number of at least 1")
+    if getattr(args, "bootstrap", 0) < 0:
+        raise ConfigError("--bootstrap", args.bootstrap, "a whole number of resamples, 0 (off) or more, e.g. 50")
     if args.holdout is not None and not 0.0 < args.holdout < 1.0:
         raise ConfigError("--holdout", args.holdout, "a fraction strictly between 0 and 1, e.g. 0.3")
     return families
@@ -124,6 +132,12 @@ def write_outputs(result: ExploreResult, out: str | Path, outcomes: pd.DataFrame
                                         out / "selected_columns.csv"))
         written.append(write_csv_atomic(pd.concat([s.steps_table() for s in selections], ignore_index=True),
                                         out / "selection_steps.csv"))
+    boots = [b for b in result.blocks if b.bootstrap is not None]
+    if boots:
+        written.append(write_csv_atomic(pd.concat([b.bootstrap.table(b.name) for b in boots], ignore_index=True),
+                                        out / "bootstrap.csv"))
+        written.append(write_csv_atomic(pd.DataFrame([b.bootstrap.summary(b.name) for b in boots]),
+                                        out / "bootstrap_summary.csv"))
     if outcomes is not None:
         from sleepfuse.explore.outcomes import relate_blocks
 
@@ -175,6 +189,8 @@ def summary_lines(result: ExploreResult) -> list[str]:
             val = f"{h.validation[0]}, K={h.validation[1]}" if h.validation else "nothing fitted"
             lines.append(f"  validation sample prefers {val}: the development choice "
                          f"{'holds' if h.holds else 'does NOT hold'}")
+        if block.bootstrap is not None:
+            lines.append("  " + bootstrap_line(block.bootstrap))
     if len(result.blocks) > 1:
         for r in result.agreement.itertuples():
             ari = f"{r.ari:.2f}" if pd.notna(r.ari) else "not defined"
@@ -187,6 +203,19 @@ def summary_lines(result: ExploreResult) -> list[str]:
         lines.append(SELECTION_CAUTION)
     lines.append(EXPLORATORY_CAUTION)
     return lines
+
+
+def bootstrap_line(boot) -> str:
+    """The stability summary: mean bootstrap ARI, its 2.5-97.5% range, and replicates that failed."""
+    s = boot.summary("")
+    if not s["fitted"]:
+        return f"bootstrap: none of {s['replicates']} resamples could be fitted"
+    text = (f"bootstrap stability ({s['replicates']} resamples, seed {s['seed']}): adjusted Rand index "
+            f"mean {s['ari_mean']:.2f}, 2.5-97.5% range {s['ari_p2.5']:.2f} to {s['ari_p97.5']:.2f}")
+    failed = s["replicates"] - s["fitted"]
+    if failed or s["unconverged"]:
+        text += f" ({failed} resample(s) not fitted, {s['unconverged']} not converged)"
+    return text
 
 
 def outcome_lines(tests: pd.DataFrame, missing: pd.DataFrame) -> list[str]:
@@ -219,7 +248,9 @@ def run_explore(args) -> int:
         result = explore(matrix, args.columns, args.blocks, families=families, kmax=args.kmax,
                          starts=args.starts, seed=args.seed, holdout=args.holdout, progress=_say,
                          log=getattr(args, "log", None), max_iter=getattr(args, "max_iter", DEFAULT_MAX_ITER),
-                         select=getattr(args, "select", False), keep=getattr(args, "keep", None))
+                         select=getattr(args, "select", False), keep=getattr(args, "keep", None),
+                         select_family=getattr(args, "select_family", None),
+                         bootstrap=getattr(args, "bootstrap", 0))
     except ConfigError as exc:
         _error(str(exc))
         return 2

@@ -56,23 +56,23 @@ def block_columns(matrix_columns, block: str, statistics: tuple[str, ...] = ("me
     return chosen
 
 
-def columns_by_pattern(matrix_columns, patterns) -> list[str]:
+def columns_by_pattern(matrix_columns, patterns, option: str = "--columns") -> list[str]:
     """Columns matching comma-separated names or glob patterns, in matrix order.
 
-    A pattern that matches no column is an error naming it, so a typo never silently
-    shrinks the analysis.
+    A pattern that matches no column is an error naming it and the ``option`` it came
+    from, so a typo never silently shrinks the analysis.
     """
     if isinstance(patterns, str):
         patterns = [p.strip() for p in patterns.split(",")]
     patterns = [p for p in patterns if p]
     if not patterns:
-        raise ConfigError("--columns", "", "comma-separated column names or glob patterns, e.g. 'psg_*_mean'")
+        raise ConfigError(option, "", "comma-separated column names or glob patterns, e.g. 'psg_*_mean'")
     names = [c for c in matrix_columns if c != PARTICIPANT]
     chosen: set[str] = set()
     for pattern in patterns:
         hits = fnmatch.filter(names, pattern)
         if not hits:
-            raise ConfigError("--columns", pattern, "a name or glob pattern matching at least one matrix column")
+            raise ConfigError(option, pattern, "a name or glob pattern matching at least one matrix column")
         chosen.update(hits)
     return [c for c in names if c in chosen]
 

@@ -22,8 +22,10 @@ from sleepfuse.output.files import write_with as write_atomic
 from sleepfuse.explore.mixtures import preferred_fit
 from sleepfuse.explore.selection import EXPLORATORY_CAUTION, BlockResult, ExploreResult
 from sleepfuse.explore.skewnormal import LOG_2, gaussian_logpdf
+from sleepfuse.explore.studentt import logpdf as t_logpdf
 
-FAMILY_STYLE = {"gaussian": ("#3b6ea8", "o", "Gaussian"), "skewnormal": ("#c2571a", "s", "skew-normal")}
+FAMILY_STYLE = {"gaussian": ("#3b6ea8", "o", "Gaussian"), "skewnormal": ("#c2571a", "s", "skew-normal"),
+                "t": ("#4c9a5b", "^", "t")}
 CLUSTER_COLOURS = ["#3b6ea8", "#c2571a", "#4c9a5b", "#8a5aa8", "#b8a030", "#5aa8a0", "#a85a6e", "#707070"]
 
 
@@ -111,13 +113,15 @@ def leading_variables(block: BlockResult) -> list[int]:
 
 def _marginal_log_density(block: BlockResult, idx: list[int], z: np.ndarray) -> np.ndarray:
     """Log-density of the preferred mixture's marginal on columns ``idx`` (the skew-normal family is
-    closed under marginalisation: ξ_s, Δ_s, Γ_ss; Azzalini & Dalla Valle 1996)."""
+    closed under marginalisation: ξ_s, Δ_s, Γ_ss; Azzalini & Dalla Valle 1996; so is the t, with
+    the same ν: μ_s, Σ_ss; Kotz & Nadarajah 2004, *Multivariate t Distributions and Their Applications*)."""
     best = block.preferred
     parts = []
-    for w, xi, gamma, delta in zip(best.weights, best.locations, best.gammas, best.deltas):
+    nus = best.dofs if best.dofs is not None else [None] * best.n_components
+    for w, xi, gamma, delta, nu in zip(best.weights, best.locations, best.gammas, best.deltas, nus):
         xs, gs, ds = xi[idx], gamma[np.ix_(idx, idx)], delta[idx]
         sigma = gs + np.outer(ds, ds)
-        log_f = gaussian_logpdf(z, xs, sigma)
+        log_f = gaussian_logpdf(z, xs, sigma) if nu is None else t_logpdf(z, xs, sigma, nu)
         if np.any(ds):
             wv = np.linalg.solve(sigma, ds)
             log_f = log_f + LOG_2 + log_ndtr(((z - xs) @ wv) / np.sqrt(max(1.0 - ds @ wv, 1e-300)))

@@ -1,4 +1,4 @@
-"""Finite mixtures fitted by EM: Gaussian (full covariance) and multivariate skew-normal.
+"""Finite mixtures fitted by EM: Gaussian (full covariance), multivariate skew-normal and multivariate t.
 
 Gaussian EM as in Dempster, Laird & Rubin (1977, *JRSS B* 39:1-38). Skew-normal EM
 (an ECM) through the stochastic representation Y = ξ + Δ|T0| + T1 (Lin 2009,
@@ -6,6 +6,8 @@ Gaussian EM as in Dempster, Laird & Rubin (1977, *JRSS B* 39:1-38). Skew-normal 
 Anal* 56:126-142): the E-step takes the moments of the truncated-normal latent |T0|
 given y, the CM-steps update ξ, Δ and Γ in closed form, each maximising the expected
 complete-data log-likelihood given the others, so the log-likelihood never decreases.
+t-mixture ECM as in Peel & McLachlan (2000, *Statistics and Computing* 10:339-348), with the
+degrees of freedom ν per component from the root of their equation (``studentt``).
 
 Guards: a minimum expected component size, a covariance floor (smallest eigenvalue of
 Σ or Γ raised to ``cov_floor``), and starts that fail are skipped with their reason.
@@ -23,6 +25,7 @@ import numpy as np
 from scipy.special import log_ndtr
 
 from sleepfuse.explore import starts as _starts
+from sleepfuse.explore import studentt as _t
 from sleepfuse.explore.skewnormal import LOG_2, LOG_2PI, shape_from_delta
 
 from sleepfuse.explore.names import DEFAULT_MAX_ITER, DEFAULT_STARTS, FAMILIES  # noqa: E402  (FAMILIES re-exported)
@@ -30,10 +33,11 @@ HALF_LOG_2PI = 0.5 * LOG_2PI
 
 
 def n_free_parameters(family: str, n_components: int, n_dims: int) -> int:
-    """Free parameters: (K−1) weights + K·d means + K·d(d+1)/2 covariances, + K·d shapes for skew-normal."""
+    """Free parameters: (K−1) weights + K·d means + K·d(d+1)/2 covariances, + K·d shapes for skew-normal,
+    + K degrees of freedom ν for t."""
     k, d = n_components, n_dims
     p = (k - 1) + k * d + k * d * (d + 1) // 2
-    return p + k * d if family == "skewnormal" else p
+    return p + {"skewnormal": k * d, "t": k}.get(family, 0)
 
 
 def bic(loglik: float, n_params: int, n_obs: int) -> float:
@@ -46,7 +50,8 @@ class MixtureFit:
     """One fitted (family, K): parameters of the best start, its log-likelihood trace and diagnostics.
 
     Components are ordered by the mean of the first variable. ``locations`` are ξ (the
-    means for the Gaussian family), ``scales`` are Σ, ``deltas`` are Δ (zero for Gaussian).
+    means for the Gaussian family), ``scales`` are Σ, ``deltas`` are Δ (zero for Gaussian and t),
+    ``dofs`` the degrees of freedom ν per component (t family only).
     """
 
     family: str
@@ -57,6 +62,7 @@ class MixtureFit:
     locations: np.ndarray | None = None
     scales: np.ndarray | None = None
     deltas: np.ndarray | None = None
+    dofs: np.ndarray | None = None
     loglik: float = float("nan")
     converged: bool = False
     n_iter: int = 0
@@ -97,7 +103,8 @@ class MixtureFit:
 
     def weighted_log_density(self, x: np.ndarray) -> np.ndarray:
         """log(π_k) + log f_k(x_i) for each row of x and component (n, K)."""
-        return _weighted_log_density(np.atleast_2d(x), self.weights, self.locations, self.gammas, self.deltas)
+        return _weighted_log_density(np.atleast_2d(x), self.weights, self.locations, self.gammas, self.deltas,
+                                     self.dofs)
 
     def log_likelihood(self, x: np.ndarray) -> float:
         """Mixture log-likelihood of the rows of x (same standardised scale as the fit)."""
@@ -145,9 +152,10 @@ def _component_terms(x, xis, gammas, deltas):
     return LOG_2 + log_phi + log_cdf, mu + m * rho, mu * mu + m2 + m * mu * rho
 
 
-def _weighted_log_density(x, weights, xis, gammas, deltas):
+def _weighted_log_density(x, weights, xis, gammas, deltas, nus=None):
+    logd = _t.log_densities(x, xis, gammas, nus)[0] if nus is not None else _component_terms(x, xis, gammas, deltas)[0]
     with np.errstate(divide="ignore"):
-        return _component_terms(x, xis, gammas, deltas)[0].T + np.log(weights)
+        return logd.T + np.log(weights)
 
 
 def _floor_batch(gammas: np.ndarray, cov_floor: float) -> tuple[np.ndarray, bool]:
@@ -159,20 +167,25 @@ def _floor_batch(gammas: np.ndarray, cov_floor: float) -> tuple[np.ndarray, bool
 
 
 def _em(x, family, params, *, tol, max_iter, min_size, cov_floor):
-    """Run EM from ``params`` = (weights, ξ, Γ, Δ); returns (params, trace, converged, floored).
+    """Run EM from ``params`` = (weights, ξ, Γ, Δ[, ν]); returns ((weights, ξ, Γ, Δ, ν), trace, converged,
+    floored), ν None except for the t family (whose Γ is Σ and Δ zero).
 
     trace[t] is the log-likelihood at the parameters after t M-steps. Raises StartFailed.
     """
     n, d = x.shape
-    weights, xis, gammas, deltas = (np.array(p, dtype=float) for p in params)
-    if family == "gaussian":
+    weights, xis, gammas, deltas = (np.array(p, dtype=float) for p in params[:4])
+    nus = np.array(params[4], dtype=float) if family == "t" else None
+    if family != "skewnormal":
         deltas = np.zeros_like(xis)
     trace: list[float] = []
     floored = converged = False
     skewed = family == "skewnormal"
     for it in range(max_iter + 1):
         try:
-            logd, e_tau, e_tau2 = _component_terms(x, xis, gammas, deltas)
+            if nus is not None:
+                logd, maha = _t.log_densities(x, xis, gammas, nus)
+            else:
+                logd, e_tau, e_tau2 = _component_terms(x, xis, gammas, deltas)
         except np.linalg.LinAlgError as exc:
             raise StartFailed(f"numerical failure ({exc})") from None
         with np.errstate(divide="ignore"):
@@ -204,6 +217,8 @@ def _em(x, family, params, *, tol, max_iter, min_size, cov_floor):
             scatter = (resid * resp[:, :, None]).transpose(0, 2, 1) @ resid
             gammas = (scatter - cross - cross.transpose(0, 2, 1)
                       + s2_sum[:, None, None] * outer) / nk[:, None, None]  # CM-step 3: Γ
+        elif nus is not None:
+            weights, xis, gammas, nus = _t.m_step(x, resp, _t.weights_u(maha, nus, d), nus)
         else:
             xis = resp @ x / nk[:, None]
             resid = x[None, :, :] - xis[:, None, :]
@@ -213,7 +228,7 @@ def _em(x, family, params, *, tol, max_iter, min_size, cov_floor):
             raise StartFailed("parameters became non-finite")
         gammas, hit = _floor_batch(gammas, cov_floor)
         floored |= hit
-    return (weights, xis, gammas, deltas), np.array(trace), converged, floored
+    return (weights, xis, gammas, deltas, nus), np.array(trace), converged, floored
 
 
 def _has_converged(trace: list[float], tol: float) -> bool:
@@ -224,10 +239,10 @@ def _has_converged(trace: list[float], tol: float) -> bool:
 
 
 def _order_components(params):
-    weights, xis, gammas, deltas = params
+    weights, xis, gammas, deltas, nus = params
     means = xis + np.sqrt(2.0 / np.pi) * deltas
     order = np.lexsort((-weights, means[:, 0]))
-    return weights[order], xis[order], gammas[order], deltas[order]
+    return weights[order], xis[order], gammas[order], deltas[order], None if nus is None else nus[order]
 
 
 def fit_mixture(
@@ -248,8 +263,8 @@ def fit_mixture(
     """Fit one (family, K) mixture to standardised data x (n, d) by EM from several seeded starts.
 
     Starts are ``starts`` k-means++ partitions and as many random partitions (the same for
-    both families; Biernacki, Celeux & Govaert 2003 compare both kinds); a skew-normal fit also
-    starts once next to ``gaussian_fit`` when given. Every start runs ``short_iter``
+    every family; Biernacki, Celeux & Govaert 2003 compare both kinds; t starts take ν = ``studentt.NU_START``);
+    a skew-normal or t fit also starts once next to ``gaussian_fit`` when given (t with ν at its upper bound). Every start runs ``short_iter``
     iterations; the ``keep`` best continue to convergence (or ``max_iter``), and the one
     with the highest log-likelihood wins. ``min_component_size`` defaults to max(d + 1, 5) expected members.
     A (family, K) where every start fails comes back with ``ok`` False and the reason.
@@ -278,11 +293,14 @@ def fit_mixture(
             failures[f"{kind} start gave a cluster of fewer than {max(d + 1, 2)} members"] += 1
             continue
         make = _starts.skewnormal_start if family == "skewnormal" else _starts.gaussian_start
-        inits.append(make(x, labels, k_total, cov_floor))
+        inits.append(make(x, labels, k_total, cov_floor) + (np.full(k_total, _t.NU_START),))
     if family == "skewnormal" and gaussian_fit is not None and gaussian_fit.ok:
         inits.append(_starts.skewnormal_from_gaussian(
             x, gaussian_fit.weights, gaussian_fit.locations, gaussian_fit.scales,
             gaussian_fit.posterior(x), cov_floor))
+    if family == "t" and gaussian_fit is not None and gaussian_fit.ok:   # ν at its bound: nearly the Gaussian fit
+        inits.append((gaussian_fit.weights, gaussian_fit.locations, gaussian_fit.scales, gaussian_fit.deltas,
+                      np.full(k_total, _t.NU_RANGE[1])))
     # "Short EM" start strategy (Biernacki, Celeux & Govaert 2003, Comput Stat Data Anal
     # 41:561-575): every start runs a few iterations, only the most promising run to the end.
     em = dict(tol=tol, min_size=min_size, cov_floor=cov_floor)
@@ -314,7 +332,7 @@ def fit_mixture(
         fit.message = f"no usable fit: all {fit.n_starts} start(s) failed: {reasons}"
         return fit
     params, trace, converged, floored = best
-    weights, xis, gammas, deltas = _order_components(params)
+    weights, xis, gammas, deltas, fit.dofs = _order_components(params)
     fit.weights, fit.locations, fit.deltas = weights, xis, deltas
     fit.scales = gammas + np.einsum("ki,kj->kij", deltas, deltas)
     fit.loglik, fit.loglik_trace = float(trace[-1]), trace
@@ -349,7 +367,7 @@ def fit_mixtures(
     kmax: int = 5,
     **options,
 ) -> list[MixtureFit]:
-    """Fit every (family, K), K = 1..kmax; Gaussian fits seed one skew-normal start each."""
+    """Fit every (family, K), K = 1..kmax; Gaussian fits seed one skew-normal and one t start each."""
     fits = []
     gaussian: dict[int, MixtureFit] = {}
     order = sorted(families, key=FAMILIES.index)

@@ -1,6 +1,6 @@
 """Names the explore command line needs without loading the fitting code (scipy)."""
 
-FAMILIES = ("gaussian", "skewnormal")
+FAMILIES = ("gaussian", "skewnormal", "t")
 EXPLORATORY_CAUTION = (
     "Clustering is exploratory: it generates hypotheses, and any subgroup needs "
     "confirmation in a separate validation sample."

@@ -25,7 +25,7 @@ import pandas as pd
 from scipy import stats
 
 from sleepfuse.explore.columns import PARTICIPANT, read_participant_csv
-from sleepfuse.explore.selection import adjusted_rand_index
+from sleepfuse.explore.agreement import adjusted_rand_index
 from sleepfuse.model.errors import ConfigError
 
 OUTCOME_COLUMNS = ["block", "outcome", "kind", "test", "statistic", "p", "effect", "effect_name", "ari", "n",

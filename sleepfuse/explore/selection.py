@@ -19,6 +19,8 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 
+from sleepfuse.explore.agreement import adjusted_rand_index
+from sleepfuse.explore.bootstrap import BootstrapResult, run_bootstrap
 from sleepfuse.explore.columns import ColumnSet, PreparedData, column_sets, columns_by_pattern, prepare
 from sleepfuse.explore.holdout import HoldoutResult, run_holdout, split_participants
 from sleepfuse.explore.varselect import Selection, select_columns
@@ -26,46 +28,22 @@ from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures, prefe
 
 from sleepfuse.explore.names import DEFAULT_STARTS, EXPLORATORY_CAUTION  # noqa: E402,F401  (re-exported)
 
-__all__ = ["HoldoutResult", "preferred_fit", "EXPLORATORY_CAUTION"]
-MODEL_COLUMNS = ["block", "set", "family", "K", "loglik", "n_params", "BIC", "converged", "n_iter", "message"]
+__all__ = ["HoldoutResult", "preferred_fit", "EXPLORATORY_CAUTION", "adjusted_rand_index"]
+MODEL_COLUMNS = ["block", "set", "family", "K", "loglik", "n_params", "BIC", "converged", "n_iter", "t_df",
+                 "message"]
 MEMBERSHIP_COLUMNS = ["participant", "block", "set", "family", "K", "cluster", "probability", "reason"]
 
 
 def models_table(fits: list[MixtureFit], block: str = "", set_name: str = "all") -> pd.DataFrame:
-    """One row per (family, K): loglik, free parameters, BIC, convergence and any message."""
+    """One row per (family, K): loglik, free parameters, BIC, convergence, the t family's ν per component
+    (``t_df``, ';'-separated in cluster order) and any message."""
     rows = [{
         "block": block, "set": set_name, "family": f.family, "K": f.n_components,
         "loglik": f.loglik if f.ok else np.nan, "n_params": f.n_params, "BIC": f.bic,
-        "converged": bool(f.converged), "n_iter": f.n_iter, "message": f.message,
+        "converged": bool(f.converged), "n_iter": f.n_iter,
+        "t_df": ";".join(f"{v:.2f}" for v in f.dofs) if f.dofs is not None else "", "message": f.message,
     } for f in fits]
     return pd.DataFrame(rows, columns=MODEL_COLUMNS)
-
-
-def adjusted_rand_index(labels_a, labels_b) -> float:
-    """Adjusted Rand index of two partitions of the same items (Hubert & Arabie 1985, eq. 5).
-
-    1 for identical partitions, about 0 for chance agreement; like scikit-learn, 1 when
-    both partitions are trivial in the same way (one cluster, or all singletons).
-    """
-    a = np.unique(np.asarray(labels_a), return_inverse=True)[1].ravel()
-    b = np.unique(np.asarray(labels_b), return_inverse=True)[1].ravel()
-    if a.size != b.size:
-        raise ValueError("the two partitions must label the same items")
-    n = a.size
-    table = np.zeros((a.max() + 1 if n else 0, b.max() + 1 if n else 0))
-    np.add.at(table, (a, b), 1.0)
-    na, nb = table.shape
-    if n == 0 or na == nb == 1 or na == nb == n:
-        return 1.0
-
-    def pairs(counts):
-        return float(np.sum(counts * (counts - 1.0) / 2.0))
-
-    index = pairs(table)
-    row, col = pairs(table.sum(axis=1)), pairs(table.sum(axis=0))
-    expected = row * col / (n * (n - 1.0) / 2.0)
-    maximum = 0.5 * (row + col)
-    return float((index - expected) / (maximum - expected)) if maximum != expected else 0.0
 
 
 @dataclass
@@ -79,6 +57,7 @@ class BlockResult:
     holdout: HoldoutResult | None = None
     notes: list[str] = field(default_factory=list)
     selection: Selection | None = None
+    bootstrap: BootstrapResult | None = None
 
     @property
     def set_name(self) -> str:
@@ -203,14 +182,18 @@ def explore_block(
     seed: int = 0,
     select: bool = False,
     keep: tuple[str, ...] = (),
+    select_family: str | None = None,
+    bootstrap: int = 0,
     progress: Callable[[str], None] | None = None,
     **fit_options,
 ) -> BlockResult:
     """Fit every (family, K ≤ kmax) to one prepared column set; with ``holdout`` split it first.
 
     With ``select`` the columns are first chosen by stepwise BIC (``varselect``, Raftery &
-    Dean 2006) on the development participants, with the skew-normal family when it is
-    among ``families`` (else the Gaussian), always keeping ``keep``.
+    Dean 2006) on the development participants, with ``select_family`` (default: the
+    skew-normal family when it is among ``families``, else the first of them), always keeping ``keep``.
+    With ``bootstrap`` B > 0 the preferred (family, K) is refitted on B resamples of the
+    (development) participants (``bootstrap.run_bootstrap``).
     """
     notes = list(data.notes)
     n, d = data.raw.shape
@@ -225,7 +208,7 @@ def explore_block(
         dev_idx, val_idx = split_participants(len(data.participants), holdout, seed)
         development, validation = data.subset(dev_idx), data.subset(val_idx)
     if select and len(data.columns) > 1:
-        family = "skewnormal" if "skewnormal" in families else families[0]
+        family = select_family or ("skewnormal" if "skewnormal" in families else families[0])
         selection = select_columns(development.z, development.columns, family=family, kmax=kmax, keep=keep,
                                    block=data.column_set, seed=seed, progress=progress)
         notes.append(f"{len(selection.chosen)} of {len(data.columns)} column(s) selected by "
@@ -233,15 +216,20 @@ def explore_block(
         development = development.with_columns(selection.chosen)
         validation = validation.with_columns(selection.chosen) if validation is not None else None
         data = data.with_columns(selection.chosen)
+    fits = fit_mixtures(development.z, families, kmax, seed=seed, **fit_options)
+    result = BlockResult(data.column_set, development, fits, validation=validation, notes=notes,
+                         selection=selection)
     if holdout:
-        fits = fit_mixtures(development.z, families, kmax, seed=seed, **fit_options)
-        result = BlockResult(data.column_set, development, fits, validation=validation, notes=notes,
-                             selection=selection)
         result.holdout = run_holdout(development, validation, preferred_fit(fits), holdout,
                                      families=families, kmax=kmax, seed=seed, **fit_options)
-        return result
-    fits = fit_mixtures(data.z, families, kmax, seed=seed, **fit_options)
-    return BlockResult(data.column_set, data, fits, notes=notes, selection=selection)
+    best = result.preferred
+    if bootstrap and best is not None and best.n_components > 1:
+        result.bootstrap = run_bootstrap(development.z, best, bootstrap, seed=seed, block=data.column_set,
+                                         progress=progress, **fit_options)
+    elif bootstrap:
+        notes.append("bootstrap skipped: " + ("no model could be fitted" if best is None else
+                                              "the preferred model has one cluster (K = 1), nothing to check"))
+    return result
 
 
 def explore(
@@ -257,6 +245,8 @@ def explore(
     log: str | None = None,
     select: bool = False,
     keep: str | None = None,
+    select_family: str | None = None,
+    bootstrap: int = 0,
     progress: Callable[[str], None] | None = None,
     **fit_options,
 ) -> ExploreResult:
@@ -268,8 +258,8 @@ def explore(
     column specification; a (family, K) that cannot be fitted is reported, not raised.
     """
     sets: list[ColumnSet] = column_sets(list(matrix.columns), columns, blocks)
-    logged = set(columns_by_pattern(list(matrix.columns), log)) if log else set()
-    kept = tuple(columns_by_pattern(list(matrix.columns), keep)) if keep else ()
+    logged = set(columns_by_pattern(list(matrix.columns), log, "--log")) if log else set()
+    kept = tuple(columns_by_pattern(list(matrix.columns), keep, "--keep")) if keep else ()
     results = []
     for cs in sets:
         data = prepare(matrix, cs, logged)
@@ -277,6 +267,6 @@ def explore(
             progress(f"{cs.name}: {len(data.participants)} participant(s), {len(data.columns)} column(s), "
                      f"{len(data.excluded)} left out for missing values")
         results.append(explore_block(data, families=families, kmax=kmax, holdout=holdout, seed=seed,
-                                     select=select, keep=kept, progress=progress, starts=starts, **fit_options))
+                                     select=select, keep=kept, select_family=select_family, bootstrap=bootstrap, progress=progress, starts=starts, **fit_options))
     return ExploreResult(results, agreement_between_blocks(results) if len(results) > 1 else
                          agreement_between_blocks([]))

@@ -31,6 +31,7 @@ import pandas as pd
 from scipy import optimize, stats
 
 from sleepfuse.explore.mixtures import fit_mixtures
+from sleepfuse.explore.studentt import NU_RANGE, NU_START
 
 METHOD = "stepwise BIC variable selection (Raftery & Dean 2006, JASA 101:168-178)"
 SELECTION_CAUTION = ("Columns were selected and clustered on the same participants: "
@@ -45,7 +46,9 @@ def regression_loglik(y: np.ndarray, s: np.ndarray, family: str) -> tuple[float,
     Gaussian: ordinary least squares, σ² = RSS/n, |S| + 2 parameters. Skew-normal: errors
     ~ SN(ξ, ω, α) (``scipy.stats.skewnorm``), coefficients, ξ, ω and α by maximum
     likelihood from the least-squares start (α = 0 is the Gaussian model, so the result is
-    never below it), |S| + 3 parameters.
+    never below it), |S| + 3 parameters. t: errors ~ t(ν, 0, ω) (``scipy.stats.t``), coefficients,
+    ω and ν (within ``studentt.NU_RANGE``) by maximum likelihood from the least-squares start and
+    ν at its upper bound (nearly the Gaussian model), |S| + 3 parameters.
     """
     n = y.size
     design = np.column_stack([np.ones(n), s]) if s.size else np.ones((n, 1))
@@ -53,19 +56,29 @@ def regression_loglik(y: np.ndarray, s: np.ndarray, family: str) -> tuple[float,
     resid = y - design @ coef
     var = max(float(resid @ resid) / n, 1e-12)
     gauss = -0.5 * n * (np.log(2.0 * np.pi * var) + 1.0)
-    if family != "skewnormal":
+    if family not in ("skewnormal", "t"):
         return float(gauss), design.shape[1] + 1
+    bounds = None
+    if family == "t":
+        low, high = NU_RANGE
 
-    def negll(theta):
-        beta, log_scale, shape = theta[:-2], theta[-2], theta[-1]
-        return -float(np.sum(stats.skewnorm.logpdf(y - design @ beta, shape, scale=np.exp(log_scale))))
+        def negll(theta):
+            beta, log_scale, nu = theta[:-2], theta[-2], theta[-1]
+            return -float(np.sum(stats.t.logpdf(y - design @ beta, nu, scale=np.exp(log_scale))))
 
-    best = gauss
-    a0, loc0, scale0 = stats.skewnorm.fit(resid)
-    starts = [np.r_[coef, 0.5 * np.log(var), 0.0], np.r_[coef + np.r_[loc0, np.zeros(design.shape[1] - 1)],
-                                                          np.log(max(scale0, 1e-6)), a0]]
+        starts = [np.r_[coef, 0.5 * np.log(var), high], np.r_[coef, 0.5 * np.log(var), NU_START]]
+        bounds = [(None, None)] * (design.shape[1] + 1) + [(low, high)]
+    else:
+        def negll(theta):
+            beta, log_scale, shape = theta[:-2], theta[-2], theta[-1]
+            return -float(np.sum(stats.skewnorm.logpdf(y - design @ beta, shape, scale=np.exp(log_scale))))
+
+        a0, loc0, scale0 = stats.skewnorm.fit(resid)
+        starts = [np.r_[coef, 0.5 * np.log(var), 0.0], np.r_[coef + np.r_[loc0, np.zeros(design.shape[1] - 1)],
+                                                              np.log(max(scale0, 1e-6)), a0]]
+    best = gauss if family == "skewnormal" else -negll(starts[0])
     for theta in starts:
-        res = optimize.minimize(negll, theta, method="L-BFGS-B")
+        res = optimize.minimize(negll, theta, method="L-BFGS-B", bounds=bounds)
         if np.isfinite(res.fun):
             best = max(best, -float(res.fun))
     return best, design.shape[1] + 2
