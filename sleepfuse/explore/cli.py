@@ -222,7 +222,7 @@ def outcome_lines(tests: pd.DataFrame, missing: pd.DataFrame) -> list[str]:
     """One line per outcome (test, p, effect, ARI), and who is missing from the outcomes table."""
     lines = []
     for r in tests.itertuples():
-        if not r.test:
+        if not isinstance(r.test, str) or not r.test:     # read back from CSV, an empty test is NaN
             lines.append(f"  [{r.block}] {r.outcome}: {r.note}")
             continue
         p = "< 0.001" if r.p < 0.001 else f"{r.p:.3f}"

@@ -365,13 +365,18 @@ def fit_mixtures(
     x: np.ndarray,
     families: tuple[str, ...] = FAMILIES,
     kmax: int = 5,
+    progress=None,
     **options,
 ) -> list[MixtureFit]:
-    """Fit every (family, K), K = 1..kmax; Gaussian fits seed one skew-normal and one t start each."""
+    """Fit every (family, K), K = 1..kmax; Gaussian fits seed one skew-normal and one t start each.
+
+    ``progress`` (a callable taking a message) hears of each family as its fits begin."""
     fits = []
     gaussian: dict[int, MixtureFit] = {}
     order = sorted(families, key=FAMILIES.index)
-    for family in order:
+    for i, family in enumerate(order, 1):
+        if progress:
+            progress(f"fitting {family} mixtures, K = 1..{int(kmax)} (family {i} of {len(order)})")
         for k in range(1, int(kmax) + 1):
             fit = fit_mixture(x, family, k, gaussian_fit=gaussian.get(k), **options)
             if family == "gaussian":

@@ -124,32 +124,41 @@ def profiles(labels: dict[str, int], values: pd.DataFrame, block: str = "") -> p
     return pd.DataFrame(rows).reindex(columns=PROFILE_COLUMNS)
 
 
-def relate_blocks(result, outcomes: pd.DataFrame) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]:
+def block_values(block, outcomes: pd.DataFrame | None = None) -> pd.DataFrame:
+    """One block's clustered columns in their own units (before any ln(1 + x)), development and
+    validation participants alike, indexed by participant and joined with the outcomes table when given."""
+    logged = [i for i, c in enumerate(block.data.columns) if c in block.data.logged]
+    frames = []
+    for part in (block.data, block.validation):
+        if part is None:
+            continue
+        raw = part.raw.copy()
+        raw[:, logged] = np.expm1(raw[:, logged])
+        frames.append(pd.DataFrame(raw, index=part.participants, columns=list(block.data.columns)))
+    values = pd.concat(frames)
+    if outcomes is None:
+        return values
+    return values.join(outcomes.set_index(outcomes[PARTICIPANT].astype(str)).drop(columns=[PARTICIPANT]), how="left")
+
+
+def relate_blocks(result, outcomes: pd.DataFrame | None) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]:
     """outcomes.csv, profiles.csv and the clustered participants missing from the outcomes table, every block.
 
     The clusters are those of each block's preferred model (all its classified participants,
     development and validation alike); profiles give the clustered columns in their own
-    units (before any ln(1 + x)) and every outcome.
+    units (before any ln(1 + x)) and every outcome. Without an outcomes table only the
+    clustered columns are profiled.
     """
     tests, profs, missing = [], [], []
-    table = outcomes.set_index(outcomes[PARTICIPANT].astype(str)).drop(columns=[PARTICIPANT])
     for block in result.blocks:
         labels = block.labels()
         if not labels:
             continue
-        rows, absent = relate(labels, outcomes, block.name)
-        tests.append(rows)
-        missing += [{"block": block.name, "participant": p} for p in absent]
-        raw = block.data.raw.copy()
-        logged = [i for i, c in enumerate(block.data.columns) if c in block.data.logged]
-        raw[:, logged] = np.expm1(raw[:, logged])
-        frames = [pd.DataFrame(raw, index=block.data.participants, columns=list(block.data.columns))]
-        if block.validation is not None:
-            vraw = block.validation.raw.copy()
-            vraw[:, logged] = np.expm1(vraw[:, logged])
-            frames.append(pd.DataFrame(vraw, index=block.validation.participants, columns=list(block.data.columns)))
-        values = pd.concat(frames).join(table, how="left")
-        profs.append(profiles(labels, values, block.name))
+        if outcomes is not None:
+            rows, absent = relate(labels, outcomes, block.name)
+            tests.append(rows)
+            missing += [{"block": block.name, "participant": p} for p in absent]
+        profs.append(profiles(labels, block_values(block, outcomes), block.name))
     return (pd.concat(tests, ignore_index=True) if tests else pd.DataFrame(columns=OUTCOME_COLUMNS),
             pd.concat(profs, ignore_index=True) if profs else pd.DataFrame(columns=PROFILE_COLUMNS),
             pd.DataFrame(missing, columns=["block", "participant"]))

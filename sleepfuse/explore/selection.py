@@ -216,7 +216,8 @@ def explore_block(
         development = development.with_columns(selection.chosen)
         validation = validation.with_columns(selection.chosen) if validation is not None else None
         data = data.with_columns(selection.chosen)
-    fits = fit_mixtures(development.z, families, kmax, seed=seed, **fit_options)
+    said = (lambda m: progress(f"{data.column_set}: {m}")) if progress else None
+    fits = fit_mixtures(development.z, families, kmax, seed=seed, progress=said, **fit_options)
     result = BlockResult(data.column_set, development, fits, validation=validation, notes=notes,
                          selection=selection)
     if holdout:

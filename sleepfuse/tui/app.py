@@ -52,9 +52,13 @@ class SleepfuseApp(KeysInOrder, App):
         self.export_dir_given = export_dir is not None  # --export-dir wins over the folder remembered
         self.choice = PairChoice()
         self.reviewer = reviewer  # recorded with each review decision (None: the system user)
+        self.outcomes_path: Path | None = None  # clusters screen: None = participants.csv in the study folder
 
     def on_mount(self) -> None:
-        self.push_screen(OverviewScreen())
+        self.push_screen(self.first_screen())
+
+    def first_screen(self):
+        return OverviewScreen()
 
     def notify(self, message: str, *, title: str = "", severity: str = "information",
                timeout: float | None = None, markup: bool = False) -> None:
@@ -132,3 +136,38 @@ def create_app(study: str | Path, *, preloaded: StudyResult | Workspace | None =
             name = study.name  # the loading worker reports the error on screen
     return SleepfuseApp(study, workspace=workspace, study_name=name, export_dir=Path(export_dir) if export_dir else None,
                         reviewer=reviewer)
+
+
+class MatrixWorkspace:
+    """A participant × feature matrix read from a CSV, standing in for a scored study on the clusters screen."""
+
+    def __init__(self, path: Path) -> None:
+        from sleepfuse.explore.cli import read_matrix
+
+        self.name = path.name
+        self.version = 0
+        self._matrix = read_matrix(path)
+
+    def matrix(self):
+        return self._matrix
+
+
+class ClustersApp(SleepfuseApp):
+    """The app opened on a matrix CSV: the clusters screen alone (q leaves the app)."""
+
+    def first_screen(self):
+        return ExploreScreen()
+
+    def help_sections(self) -> list:
+        return [("Everywhere", list(self.BINDINGS) + [Binding("ctrl+q", "quit", "Quit at once")], []),
+                ("Clusters", ExploreScreen.BINDINGS, ExploreScreen.HELP_KEYS),
+                ("Help", HelpScreen.BINDINGS, [])]
+
+
+def create_clusters_app(matrix: str | Path, *, outcomes: str | Path | None = None) -> ClustersApp:
+    """The app on a participant × feature matrix (e.g. the clustering cohort); outcomes default to
+    participants.csv beside the matrix. Raises ConfigError when the matrix cannot be read."""
+    matrix = Path(matrix)
+    app = ClustersApp(matrix.parent, workspace=MatrixWorkspace(matrix), study_name=f"{matrix.name} (matrix)")
+    app.outcomes_path = Path(outcomes) if outcomes else matrix.parent / "participants.csv"
+    return app

@@ -63,11 +63,21 @@ class ExportFinished(Message):
 
 
 class ClustersFitted(Message):
-    """A clustering preview run finished (``run`` tells stale results from the latest)."""
+    """A clustering preview run finished (``run`` tells stale results from the latest); ``tables`` are
+    (outcome tests or None, profiles, participants missing from the outcomes table, where the outcomes
+    came from or why there are none)."""
 
-    def __init__(self, run: int, result) -> None:
+    def __init__(self, run: int, result, tables=None) -> None:
         super().__init__()
-        self.run, self.result = run, result
+        self.run, self.result, self.tables = run, result, tables
+
+
+class ClustersProgress(Message):
+    """A clustering preview run reports how far it has got (shown on the status line)."""
+
+    def __init__(self, run: int, text: str) -> None:
+        super().__init__()
+        self.run, self.text = run, text
 
 
 class ClustersFailed(Message):
