@@ -1,7 +1,7 @@
 """Benchmark of ``explore --select`` (not a test): ``python benchmarks/bench_explore_select.py``.
 
 Target (issue 17): on 200 participants x 12 columns with ``--kmax 4`` the whole command
-(stepwise selection, final Gaussian and skew-normal models on the selected columns,
+(stepwise selection, final Gaussian, skew-normal and t models on the selected columns,
 tables and figures) finishes in under 2 minutes on 2 cores. Uses the invented cohort of
 sample_records/clustering_cohort.py. Prints the wall time of each repeat.
 """

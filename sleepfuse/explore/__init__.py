@@ -1,10 +1,11 @@
 """Clustering preview of the participant × feature matrix: is there any structure, and does a
 skewed model explain it better than a Gaussian one?
 
-Gaussian and multivariate skew-normal mixtures (Azzalini & Dalla Valle 1996; EM after Lin
-2009 and Cabral, Lachos & Prates 2012) for K = 1..K_max on standardised columns, chosen by
-BIC, with posterior membership, agreement between instrument blocks (adjusted Rand index)
-and an optional development/validation split. Clustering is exploratory: it generates
+Gaussian, multivariate skew-normal (Azzalini & Dalla Valle 1996; EM after Lin 2009 and
+Cabral, Lachos & Prates 2012) and multivariate t mixtures (Peel & McLachlan 2000) for
+K = 1..K_max on standardised columns, chosen by BIC, with posterior membership, agreement
+between instrument blocks (adjusted Rand index), an optional development/validation split
+and a bootstrap of the preferred solution's stability. Clustering is exploratory: it generates
 hypotheses, and any subgroup needs confirmation in a separate validation sample.
 
 Entry point for front ends: :func:`explore` (a DataFrame and a column specification in,
