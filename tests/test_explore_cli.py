@@ -140,6 +140,7 @@ def test_holdout_writes_its_verdict(tmp_path, capsys):
     (["--log", "nothing_like_this"], "--log = 'nothing_like_this'"),
     (["--keep", "zzz_*"], "--keep = 'zzz_*'"),
     (["--bootstrap", "-2"], "--bootstrap"),
+    (["--select-family", "t"], "--select-family = 't'"),
     (["--families", "gaussian,student"], "--families"),
     (["--holdout", "1.5"], "--holdout"),
     (["--columns", "diary_*", "--blocks", "psg"], "not both"),

@@ -108,3 +108,28 @@ def test_a_block_too_small_to_fit_reports_failure():
 
 def test_caution_text_is_plain():
     assert "exploratory" in EXPLORATORY_CAUTION and "validation sample" in EXPLORATORY_CAUTION
+
+
+@pytest.mark.parametrize("options", [{"select": True}, {"select": True, "holdout": 0.3}, {}])
+def test_every_bic_panel_draws_the_fitted_set(options):
+    # The BIC figure once looked for set 'all' after --select (whose models are set 'selected'),
+    # and drew only the preferred point: every panel must find its models.
+    from sleepfuse.explore.figures import bic_panels
+
+    matrix, _ = _two_group_matrix()
+    result = explore(matrix, blocks="diary", kmax=2, starts=2, seed=0, families=("gaussian",), **options)
+    panels = bic_panels(result)
+    assert len(panels) == (2 if "holdout" in options else 1)
+    for block, set_name in panels:
+        rows = block.models[block.models["set"] == set_name]
+        assert len(rows) == 2 and rows["BIC"].notna().any(), set_name
+
+
+def test_t_family_drives_the_selection_when_asked():
+    matrix, _ = _two_group_matrix(n=100, seed=2)
+    result = explore(matrix, blocks="diary", kmax=2, starts=2, seed=0, families=("gaussian", "t"), select=True,
+                     select_family="t")
+    block = result.blocks[0]
+    assert block.selection is not None and any("by t stepwise BIC" in n for n in block.notes)
+    assert set(block.selection.chosen) <= set(block.selection.columns) and block.selection.chosen
+    assert block.preferred.n_components == 2

@@ -94,6 +94,8 @@ def _check_options(args) -> tuple[str, ...]:
         raise ConfigError("--starts", args.starts, "a whole number of at least 1")
     if getattr(args, "max_iter", DEFAULT_MAX_ITER) < 1:
         raise ConfigError("--max-iter", args.max_iter, "a whole number of at least 1")
+    if getattr(args, "select_family", None) and not getattr(args, "select", False):
+        raise ConfigError("--select-family", args.select_family, "use it together with --select")
     if getattr(args, "bootstrap", 0) < 0:
         raise ConfigError("--bootstrap", args.bootstrap, "a whole number of resamples, 0 (off) or more, e.g. 50")
     if args.holdout is not None and not 0.0 < args.holdout < 1.0:
@@ -175,6 +177,8 @@ def summary_lines(result: ExploreResult) -> list[str]:
         sizes = ", ".join(f"{int(r.n_assigned)}" for r in block.cluster_sizes.itertuples())
         lines.append(f"  preferred by BIC: {best.family}, K={best.n_components} "
                      f"(BIC {best.bic:.1f}); cluster sizes {sizes}")
+        if best.dofs is not None:
+            lines.append("  degrees of freedom of the t components: " + ", ".join(f"{v:.1f}" for v in best.dofs))
         if not best.converged:
             lines.append(f"  WARNING: the preferred fit did not converge ({best.message}); no fit converged, "
                          "so treat it with care (try --max-iter, fewer columns or --log)")

@@ -25,7 +25,7 @@ from sleepfuse.explore.skewnormal import LOG_2, gaussian_logpdf
 from sleepfuse.explore.studentt import logpdf as t_logpdf
 
 FAMILY_STYLE = {"gaussian": ("#3b6ea8", "o", "Gaussian"), "skewnormal": ("#c2571a", "s", "skew-normal"),
-                "t": ("#4c9a5b", "^", "t")}
+                "t": ("#4c9a5b", "^", "multivariate t")}
 CLUSTER_COLOURS = ["#3b6ea8", "#c2571a", "#4c9a5b", "#8a5aa8", "#b8a030", "#5aa8a0", "#a85a6e", "#707070"]
 
 
@@ -55,13 +55,20 @@ def _save(fig, stem: Path) -> list[Path]:
     return out
 
 
-def plot_bic(result: ExploreResult, stem: str | Path) -> list[Path]:
-    """BIC against K for each family and block (with --holdout, one panel per sample); preferred model circled."""
+def bic_panels(result: ExploreResult) -> list[tuple[BlockResult, str]]:
+    """(block, models.csv ``set``) of each BIC panel: the fitted set (all, selected or development), and
+    with --holdout the validation sample too."""
     panels = []
     for block in result.blocks:
-        panels.append((block, "development" if block.holdout else "all"))
+        panels.append((block, block.set_name))
         if block.holdout:
             panels.append((block, "validation"))
+    return panels
+
+
+def plot_bic(result: ExploreResult, stem: str | Path) -> list[Path]:
+    """BIC against K for each family and block (with --holdout, one panel per sample); preferred model circled."""
+    panels = bic_panels(result)
     fig, axes = _new_figure(len(panels))
     for ax, (block, set_name) in zip(axes, panels):
         table = block.models
