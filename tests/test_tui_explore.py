@@ -257,3 +257,28 @@ def test_open_takes_a_study_folder_or_a_matrix_csv(tmp_path):
         study_or_matrix(str(tmp_path / "notes.txt"))
     with pytest.raises(argparse.ArgumentTypeError, match="not a folder"):
         study_or_matrix(str(tmp_path / "missing"))
+
+
+@run_async
+async def test_study_participants_table_is_the_outcomes_source(demo, tmp_path):
+    # The study's participants.csv (the table 'explore --outcomes' would read) feeds the outcomes view.
+    from tui_helpers import copy_study
+
+    study = copy_study(tmp_path / "study")
+    (study / "participants.csv").write_text("participant,reported_group\n" +
+                                            "".join(f"P0{i},{'a' if i % 2 else 'b'}\n" for i in range(1, 9)))
+    app = create_app(study, preloaded=demo)
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("c")
+        await settle(pilot)
+        screen = app.screen
+        await pilot.press("slash")
+        screen.query_one("#columns", Input).value = TWO
+        await pilot.press("enter")
+        await settle(pilot)
+        await pilot.press("v", "v")
+        rows = table_rows(screen)
+        assert [r[0] for r in rows] == ["reported_group"] and rows[0][2] == "none"   # one cluster: nothing to test
+        assert str(study / "participants.csv") in text(screen, "#detail")
+        await pilot.press("v")
+        assert any(r[2] == "reported_group=a" for r in table_rows(screen))

@@ -103,15 +103,15 @@ class ExploreScreen(Screen):
         Binding("plus", "kmax(1)", "K max+", key_display="+", tooltip=f"try one more cluster (K max up to {KMAX_RANGE[1]})"),
         Binding("minus", "kmax(-1)", "K max−", key_display="−", tooltip="try one cluster fewer"),
         Binding("s", "toggle_select", "Select", tooltip="stepwise BIC variable selection on or off (explore --select)"),
-        Binding("v", "next_view", "View", tooltip="next table: models, selection, outcomes, profiles"),
+        Binding("v", "next_view", "View", tooltip="next table: models, selection, outcomes (from participants.csv "
+                "in the study folder), profiles"),
         Binding("slash", "edit_columns", "Columns", key_display="/",
                 tooltip="type column names or glob patterns, comma-separated; Enter fits them"),
         Binding("escape,q", "back", "Back", key_display="q",
                 tooltip="back to the overview (Esc in the column field: back to the table)"),
     ]
     HELP_KEYS = [("enter", "in the column field: fit the columns typed (empty: back to the block)"),
-                 ("↑ ↓", "move in the table; the line below shows the whole message"),
-                 ("outcomes", f"from {PARTICIPANTS_TABLE} in the study folder (participant + labels or outcomes)")]
+                 ("↑ ↓", "move in the table; the line below shows the whole message")]
 
     def __init__(self) -> None:
         super().__init__()
