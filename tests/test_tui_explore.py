@@ -34,6 +34,13 @@ def text(screen, selector: str) -> str:
     return str(screen.query_one(selector, Static).render())
 
 
+async def open_clusters(pilot):
+    """Press c on the overview and wait for the first fit; returns the clusters screen."""
+    await pilot.press("c")
+    await settle(pilot)
+    return pilot.app.screen
+
+
 def table_rows(screen) -> list[list[str]]:
     table = screen.query_one("#models", DataTable)
     return [[str(c) for c in table.get_row_at(i)] for i in range(table.row_count)]
@@ -120,9 +127,7 @@ async def test_clusters_screen_blocks_columns_and_back(demo):
 async def test_clusters_keys_in_help_and_escape_leaves_the_field(demo):
     app = create_app(SAMPLE, preloaded=demo)
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("c")
-        await settle(pilot)
-        screen = app.screen
+        screen = await open_clusters(pilot)
         await pilot.press("slash")
         assert screen.query_one("#columns", Input).has_focus
         await pilot.press("q")  # typed into the field, not "back"
@@ -269,9 +274,7 @@ async def test_study_participants_table_is_the_outcomes_source(demo, tmp_path):
                                             "".join(f"P0{i},{'a' if i % 2 else 'b'}\n" for i in range(1, 9)))
     app = create_app(study, preloaded=demo)
     async with app.run_test(size=SIZE) as pilot:
-        await pilot.press("c")
-        await settle(pilot)
-        screen = app.screen
+        screen = await open_clusters(pilot)
         await pilot.press("slash")
         screen.query_one("#columns", Input).value = TWO
         await pilot.press("enter")
