@@ -344,6 +344,8 @@ def fit_mixture(
         notes.append(f"best start did not converge in {max_iter} iterations")
     if floored:
         notes.append(f"covariance floor {cov_floor:g} applied")
+    if fit.dofs is not None and np.any(fit.dofs <= _t.NU_RANGE[0] * (1 + 1e-9)):
+        notes.append(f"t degrees of freedom at the lower bound {_t.NU_RANGE[0]:g}: a component follows outliers")
     fit.message = "; ".join(notes)
     return fit
 
