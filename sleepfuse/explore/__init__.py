@@ -2,7 +2,8 @@
 skewed model explain it better than a Gaussian one?
 
 Gaussian, multivariate skew-normal (Azzalini & Dalla Valle 1996; EM after Lin 2009 and
-Cabral, Lachos & Prates 2012) and multivariate t mixtures (Peel & McLachlan 2000) for
+Cabral, Lachos & Prates 2012), multivariate t (Peel & McLachlan 2000) and restricted skew-t
+mixtures (Lin 2010; Lee & McLachlan 2014) for
 K = 1..K_max on standardised columns, chosen by BIC, with posterior membership, agreement
 between instrument blocks (adjusted Rand index), an optional development/validation split
 and a bootstrap of the preferred solution's stability. Clustering is exploratory: it generates

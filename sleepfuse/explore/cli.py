@@ -23,7 +23,7 @@ import pandas as pd
 from sleepfuse.model.errors import ConfigError
 from sleepfuse.explore.columns import BLOCKS, PARTICIPANT, read_participant_csv
 from sleepfuse.explore.names import (DEFAULT_KMAX, DEFAULT_MAX_ITER, DEFAULT_STARTS, EXPLORATORY_CAUTION,
-                                      FAMILIES)
+                                      DEFAULT_FAMILIES, FAMILIES)
 from sleepfuse.output.files import write_csv as write_csv_atomic
 
 if TYPE_CHECKING:
@@ -31,7 +31,7 @@ if TYPE_CHECKING:
 
 DESCRIPTION = (
     "Look for subgroups of participants in a participant x feature matrix with Gaussian, "
-    "skew-normal and t mixtures (K = 1..kmax) chosen by BIC. " + EXPLORATORY_CAUTION
+    "skew-normal and t mixtures (and skew-t on request) for K = 1..kmax, chosen by BIC. " + EXPLORATORY_CAUTION
 )
 
 
@@ -53,14 +53,15 @@ def add_explore_parser(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--seed", type=int, default=0, help="seed of the starts and of the holdout split (default 0)")
     p.add_argument("--holdout", type=float, metavar="FRACTION",
                    help="keep this fraction of participants as a validation sample, e.g. 0.3")
-    p.add_argument("--families", default=",".join(FAMILIES),
-                   help=f"comma-separated mixture families (default {','.join(FAMILIES)})")
+    p.add_argument("--families", default=",".join(DEFAULT_FAMILIES),
+                   help=f"comma-separated mixture families of {','.join(FAMILIES)} "
+                        f"(default {','.join(DEFAULT_FAMILIES)}; skewt is slower)")
     p.add_argument("--max-iter", type=int, default=DEFAULT_MAX_ITER, dest="max_iter",
                    help=f"EM iterations per start before giving up on convergence (default {DEFAULT_MAX_ITER})")
     p.add_argument("--select", action="store_true",
                    help="choose the columns first by stepwise BIC (Raftery & Dean 2006), within each block")
     p.add_argument("--keep", metavar="COLUMNS", help="names or glob patterns of columns --select always keeps")
-    p.add_argument("--select-family", dest="select_family", choices=FAMILIES,
+    p.add_argument("--select-family", dest="select_family", choices=[f for f in FAMILIES if f != "skewt"],
                    help="mixture family of the --select search (default skewnormal when among --families, "
                         "else the first of --families)")
     p.add_argument("--bootstrap", type=int, default=0, metavar="B",

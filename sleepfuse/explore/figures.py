@@ -22,10 +22,11 @@ from sleepfuse.output.files import write_with as write_atomic
 from sleepfuse.explore.mixtures import preferred_fit
 from sleepfuse.explore.selection import EXPLORATORY_CAUTION, BlockResult, ExploreResult
 from sleepfuse.explore.skewnormal import LOG_2, gaussian_logpdf
+from sleepfuse.explore.skewt import logpdf as skewt_logpdf
 from sleepfuse.explore.studentt import logpdf as t_logpdf
 
 FAMILY_STYLE = {"gaussian": ("#3b6ea8", "o", "Gaussian"), "skewnormal": ("#c2571a", "s", "skew-normal"),
-                "t": ("#4c9a5b", "^", "multivariate t")}
+                "t": ("#4c9a5b", "^", "multivariate t"), "skewt": ("#8a5aa8", "D", "skew-t")}
 CLUSTER_COLOURS = ["#3b6ea8", "#c2571a", "#4c9a5b", "#8a5aa8", "#b8a030", "#5aa8a0", "#a85a6e", "#707070"]
 
 
@@ -128,6 +129,9 @@ def _marginal_log_density(block: BlockResult, idx: list[int], z: np.ndarray) -> 
     for w, xi, gamma, delta, nu in zip(best.weights, best.locations, best.gammas, best.deltas, nus):
         xs, gs, ds = xi[idx], gamma[np.ix_(idx, idx)], delta[idx]
         sigma = gs + np.outer(ds, ds)
+        if nu is not None and np.any(ds):       # the restricted skew-t: same representation on the margin
+            parts.append(np.log(w) + skewt_logpdf(z, xs, gs, ds, nu))
+            continue
         log_f = gaussian_logpdf(z, xs, sigma) if nu is None else t_logpdf(z, xs, sigma, nu)
         if np.any(ds):
             wv = np.linalg.solve(sigma, ds)

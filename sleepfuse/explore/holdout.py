@@ -16,7 +16,7 @@ import numpy as np
 
 from sleepfuse.model.errors import ConfigError
 from sleepfuse.explore.columns import PreparedData
-from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures, preferred_fit
+from sleepfuse.explore.mixtures import DEFAULT_FAMILIES, MixtureFit, fit_mixtures, preferred_fit
 
 
 @dataclass
@@ -68,7 +68,7 @@ def run_holdout(
     development_best: MixtureFit | None,
     fraction: float,
     *,
-    families: tuple[str, ...] = FAMILIES,
+    families: tuple[str, ...] = DEFAULT_FAMILIES,
     kmax: int = 5,
     seed: int = 0,
     **fit_options,

@@ -1,4 +1,4 @@
-"""Finite mixtures fitted by EM: Gaussian (full covariance), multivariate skew-normal and multivariate t.
+"""Finite mixtures fitted by EM: Gaussian (full covariance), multivariate skew-normal, t and skew-t.
 
 Gaussian EM as in Dempster, Laird & Rubin (1977, *JRSS B* 39:1-38). Skew-normal EM
 (an ECM) through the stochastic representation Y = ξ + Δ|T0| + T1 (Lin 2009,
@@ -7,7 +7,8 @@ Anal* 56:126-142): the E-step takes the moments of the truncated-normal latent |
 given y, the CM-steps update ξ, Δ and Γ in closed form, each maximising the expected
 complete-data log-likelihood given the others, so the log-likelihood never decreases.
 t-mixture ECM as in Peel & McLachlan (2000, *Statistics and Computing* 10:339-348), with the
-degrees of freedom ν per component from the root of their equation (``studentt``).
+degrees of freedom ν per component from the root of their equation (``studentt``); restricted
+skew-t ECM/ECME after Lin (2010) and Lee & McLachlan (2014) (``skewt``).
 
 Guards: a minimum expected component size, a covariance floor (smallest eigenvalue of
 Σ or Γ raised to ``cov_floor``), and starts that fail are skipped with their reason.
@@ -25,10 +26,11 @@ import numpy as np
 from scipy.special import log_ndtr
 
 from sleepfuse.explore import starts as _starts
+from sleepfuse.explore import skewt as _st
 from sleepfuse.explore import studentt as _t
 from sleepfuse.explore.skewnormal import LOG_2, LOG_2PI, shape_from_delta
 
-from sleepfuse.explore.names import DEFAULT_MAX_ITER, DEFAULT_STARTS, FAMILIES  # noqa: E402  (FAMILIES re-exported)
+from sleepfuse.explore.names import DEFAULT_FAMILIES, DEFAULT_MAX_ITER, DEFAULT_STARTS, FAMILIES  # noqa: E402
 HALF_LOG_2PI = 0.5 * LOG_2PI
 
 
@@ -37,7 +39,7 @@ def n_free_parameters(family: str, n_components: int, n_dims: int) -> int:
     + K degrees of freedom ν for t."""
     k, d = n_components, n_dims
     p = (k - 1) + k * d + k * d * (d + 1) // 2
-    return p + {"skewnormal": k * d, "t": k}.get(family, 0)
+    return p + {"skewnormal": k * d, "t": k, "skewt": k * d + k}.get(family, 0)
 
 
 def bic(loglik: float, n_params: int, n_obs: int) -> float:
@@ -51,7 +53,7 @@ class MixtureFit:
 
     Components are ordered by the mean of the first variable. ``locations`` are ξ (the
     means for the Gaussian family), ``scales`` are Σ, ``deltas`` are Δ (zero for Gaussian and t),
-    ``dofs`` the degrees of freedom ν per component (t family only).
+    ``dofs`` the degrees of freedom ν per component (t and skew-t families only).
     """
 
     family: str
@@ -98,8 +100,11 @@ class MixtureFit:
 
     @property
     def means(self) -> np.ndarray:
-        """Component means E[Y] = ξ + √(2/π)Δ (K, d)."""
-        return self.locations + np.sqrt(2.0 / np.pi) * self.deltas
+        """Component means E[Y] = ξ + E[U]·Δ (K, d): E[U] = √(2/π) (skew-normal), √(2/π)·√(ν/2)·Γ((ν−1)/2)/Γ(ν/2)
+        (skew-t, infinite for ν ≤ 1)."""
+        if self.family != "skewt":
+            return self.locations + np.sqrt(2.0 / np.pi) * self.deltas
+        return self.locations + _st.mean_of_u(self.dofs)[:, None] * self.deltas
 
     def weighted_log_density(self, x: np.ndarray) -> np.ndarray:
         """log(π_k) + log f_k(x_i) for each row of x and component (n, K)."""
@@ -153,7 +158,12 @@ def _component_terms(x, xis, gammas, deltas):
 
 
 def _weighted_log_density(x, weights, xis, gammas, deltas, nus=None):
-    logd = _t.log_densities(x, xis, gammas, nus)[0] if nus is not None else _component_terms(x, xis, gammas, deltas)[0]
+    if nus is None:
+        logd = _component_terms(x, xis, gammas, deltas)[0]
+    elif np.any(deltas):
+        logd = _st.terms(x, xis, gammas, deltas, nus, moments=False)
+    else:
+        logd = _t.log_densities(x, xis, gammas, nus)[0]
     with np.errstate(divide="ignore"):
         return logd.T + np.log(weights)
 
@@ -174,18 +184,20 @@ def _em(x, family, params, *, tol, max_iter, min_size, cov_floor):
     """
     n, d = x.shape
     weights, xis, gammas, deltas = (np.array(p, dtype=float) for p in params[:4])
-    nus = np.array(params[4], dtype=float) if family == "t" else None
-    if family != "skewnormal":
+    nus = np.array(params[4], dtype=float) if family in ("t", "skewt") else None
+    if family not in ("skewnormal", "skewt"):
         deltas = np.zeros_like(xis)
     trace: list[float] = []
     floored = converged = False
-    skewed = family == "skewnormal"
     for it in range(max_iter + 1):
         try:
-            if nus is not None:
+            if family == "t":
                 logd, maha = _t.log_densities(x, xis, gammas, nus)
+            elif family == "skewt":
+                logd, e_w, e_tau, e_tau2 = _st.terms(x, xis, gammas, deltas, nus)
             else:
                 logd, e_tau, e_tau2 = _component_terms(x, xis, gammas, deltas)
+                e_w = 1.0
         except np.linalg.LinAlgError as exc:
             raise StartFailed(f"numerical failure ({exc})") from None
         with np.errstate(divide="ignore"):
@@ -205,19 +217,9 @@ def _em(x, family, params, *, tol, max_iter, min_size, cov_floor):
         if nk.min() < min_size:
             raise StartFailed(f"a component fell below {min_size:g} expected members")
         weights = nk / n
-        if skewed:
-            s1, s2 = resp * e_tau, resp * e_tau2
-            s1_sum, s2_sum = s1.sum(axis=1), s2.sum(axis=1)
-            xis = (resp @ x - s1_sum[:, None] * deltas) / nk[:, None]     # CM-step 1: ξ given Δ
-            resid = x[None, :, :] - xis[:, None, :]
-            s1r = np.einsum("kn,knd->kd", s1, resid)
-            deltas = s1r / s2_sum[:, None]                                # CM-step 2: Δ given ξ
-            cross = s1r[:, :, None] * deltas[:, None, :]
-            outer = deltas[:, :, None] * deltas[:, None, :]
-            scatter = (resid * resp[:, :, None]).transpose(0, 2, 1) @ resid
-            gammas = (scatter - cross - cross.transpose(0, 2, 1)
-                      + s2_sum[:, None, None] * outer) / nk[:, None, None]  # CM-step 3: Γ
-        elif nus is not None:
+        if family in ("skewnormal", "skewt"):                          # CM-steps: ξ given Δ, Δ given ξ, Γ
+            weights, xis, gammas, deltas = _st.update(x, resp, e_w, e_tau, e_tau2, deltas)
+        elif family == "t":
             weights, xis, gammas, nus = _t.m_step(x, resp, _t.weights_u(maha, nus, d), nus)
         else:
             xis = resp @ x / nk[:, None]
@@ -228,6 +230,8 @@ def _em(x, family, params, *, tol, max_iter, min_size, cov_floor):
             raise StartFailed("parameters became non-finite")
         gammas, hit = _floor_batch(gammas, cov_floor)
         floored |= hit
+        if family == "skewt":                                          # ECME step for ν (skewt.update_nus)
+            nus = _st.update_nus(x, weights, xis, gammas, deltas, nus, _t.NU_RANGE)
     return (weights, xis, gammas, deltas, nus), np.array(trace), converged, floored
 
 
@@ -292,12 +296,12 @@ def fit_mixture(
         if sizes.min() < min(min_size, d + 1) or sizes.min() < 2:
             failures[f"{kind} start gave a cluster of fewer than {max(d + 1, 2)} members"] += 1
             continue
-        make = _starts.skewnormal_start if family == "skewnormal" else _starts.gaussian_start
+        make = _starts.skewnormal_start if family in ("skewnormal", "skewt") else _starts.gaussian_start
         inits.append(make(x, labels, k_total, cov_floor) + (np.full(k_total, _t.NU_START),))
-    if family == "skewnormal" and gaussian_fit is not None and gaussian_fit.ok:
+    if family in ("skewnormal", "skewt") and gaussian_fit is not None and gaussian_fit.ok:
         inits.append(_starts.skewnormal_from_gaussian(
             x, gaussian_fit.weights, gaussian_fit.locations, gaussian_fit.scales,
-            gaussian_fit.posterior(x), cov_floor))
+            gaussian_fit.posterior(x), cov_floor) + (np.full(k_total, _t.NU_RANGE[1]),))
     if family == "t" and gaussian_fit is not None and gaussian_fit.ok:   # ν at its bound: nearly the Gaussian fit
         inits.append((gaussian_fit.weights, gaussian_fit.locations, gaussian_fit.scales, gaussian_fit.deltas,
                       np.full(k_total, _t.NU_RANGE[1])))
@@ -365,7 +369,7 @@ def preferred_fit(fits: list[MixtureFit]) -> MixtureFit | None:
 
 def fit_mixtures(
     x: np.ndarray,
-    families: tuple[str, ...] = FAMILIES,
+    families: tuple[str, ...] = DEFAULT_FAMILIES,
     kmax: int = 5,
     progress=None,
     **options,

@@ -1,6 +1,7 @@
 """Names the explore command line needs without loading the fitting code (scipy)."""
 
-FAMILIES = ("gaussian", "skewnormal", "t")
+FAMILIES = ("gaussian", "skewnormal", "t", "skewt")
+DEFAULT_FAMILIES = FAMILIES[:3]    # skewt on request: its ECME ν step makes it several times slower
 EXPLORATORY_CAUTION = (
     "Clustering is exploratory: it generates hypotheses, and any subgroup needs "
     "confirmation in a separate validation sample."

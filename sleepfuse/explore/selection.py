@@ -24,7 +24,7 @@ from sleepfuse.explore.bootstrap import BootstrapResult, run_bootstrap
 from sleepfuse.explore.columns import ColumnSet, PreparedData, column_sets, columns_by_pattern, prepare
 from sleepfuse.explore.holdout import HoldoutResult, run_holdout, split_participants
 from sleepfuse.explore.varselect import Selection, select_columns
-from sleepfuse.explore.mixtures import FAMILIES, MixtureFit, fit_mixtures, preferred_fit
+from sleepfuse.explore.mixtures import DEFAULT_FAMILIES, MixtureFit, fit_mixtures, preferred_fit
 
 from sleepfuse.explore.names import DEFAULT_STARTS, EXPLORATORY_CAUTION  # noqa: E402,F401  (re-exported)
 
@@ -176,7 +176,7 @@ def agreement_between_blocks(blocks: list[BlockResult]) -> pd.DataFrame:
 def explore_block(
     data: PreparedData,
     *,
-    families: tuple[str, ...] = FAMILIES,
+    families: tuple[str, ...] = DEFAULT_FAMILIES,
     kmax: int = 5,
     holdout: float | None = None,
     seed: int = 0,
@@ -208,7 +208,8 @@ def explore_block(
         dev_idx, val_idx = split_participants(len(data.participants), holdout, seed)
         development, validation = data.subset(dev_idx), data.subset(val_idx)
     if select and len(data.columns) > 1:
-        family = select_family or ("skewnormal" if "skewnormal" in families else families[0])
+        usable = [f for f in families if f != "skewt"]      # skewt has no regression model for the search
+        family = select_family or ("skewnormal" if "skewnormal" in usable or not usable else usable[0])
         selection = select_columns(development.z, development.columns, family=family, kmax=kmax, keep=keep,
                                    block=data.column_set, seed=seed, progress=progress)
         notes.append(f"{len(selection.chosen)} of {len(data.columns)} column(s) selected by "
@@ -238,7 +239,7 @@ def explore(
     columns: str | None = None,
     blocks: str | None = None,
     *,
-    families: tuple[str, ...] = FAMILIES,
+    families: tuple[str, ...] = DEFAULT_FAMILIES,
     kmax: int = 5,
     starts: int = DEFAULT_STARTS,
     seed: int = 0,

@@ -24,7 +24,7 @@ from textual.screen import Screen
 from textual.widgets import DataTable, Footer, Input, Static
 
 from ...explore.columns import BLOCKS
-from ...explore.names import DEFAULT_KMAX, DEFAULT_STARTS, EXPLORATORY_CAUTION, FAMILIES
+from ...explore.names import DEFAULT_FAMILIES, DEFAULT_KMAX, DEFAULT_STARTS, EXPLORATORY_CAUTION
 from ..messages import ClustersFailed, ClustersFitted, ClustersProgress
 from ..widgets.appbar import AppBar
 from . import tcss
@@ -172,7 +172,7 @@ class ExploreScreen(Screen):
         self._show_choice()
         what = "the columns typed" if self.columns else f"block {self.block}"
         self.query_one("#status", Static).update(
-            Text(f" fitting {', '.join(FAMILIES)} mixtures, K = 1..{self.kmax}, on {what} …", style="italic"))
+            Text(f" fitting {', '.join(DEFAULT_FAMILIES)} mixtures, K = 1..{self.kmax}, on {what} …", style="italic"))
         self.fit(self.run, self.matrix(), self.columns or None, None if self.columns else self.block, self.kmax,
                  self.select, self.outcomes_path())
 
