@@ -21,9 +21,9 @@ N(μ_τ, M²/W) truncated to (0, ∞). Hence, with A = μ_τ/M, a = (ν+p)/2, b 
 
 (the integrals against the Gamma density are closed; see the tests for numerical checks).
 The CM-steps for ξ, Δ and Γ are those of the skew-normal ECM with these weights
-(Lin 2010, *Stat Comput* 20:343-356); ν is updated ECME-style, by maximising the actual
-log-likelihood in ν (Liu & Rubin 1994, *Biometrika* 81:633-648), because E[log W | y]
-has no closed form here.
+(Lin 2010, *Stat Comput* 20:343-356); ν is updated ECME-style, on the actual log-likelihood
+(Liu & Rubin 1994, *Biometrika* 81:633-648; see ``update_nus``), because E[log W | y] has
+no closed form here.
 """
 
 from __future__ import annotations
@@ -41,9 +41,8 @@ def _log_stdtr(df, x):
         return np.log(np.clip(stdtr(df, x), 1e-300, None))
 
 
-def terms(y, xis, gammas, deltas, nus, *, moments: bool = True):
-    """log f_k(y_j) (K, n), and with ``moments`` E[W|y], E[WU|y], E[WU²|y] (each (K, n))."""
-    p = y.shape[1]
+def _geometry(y, xis, gammas, deltas):
+    """The parts of the density that do not depend on ν: d, log|Σ|, μ_τ, M², each per component."""
     sigma = gammas + deltas[:, :, None] * deltas[:, None, :]
     chol = np.linalg.cholesky(sigma)
     resid = y[None, :, :] - xis[:, None, :]
@@ -54,13 +53,25 @@ def terms(y, xis, gammas, deltas, nus, *, moments: bool = True):
     m2 = np.maximum(1.0 - np.sum(deltas * w, axis=1), 1e-300)[:, None]
     m = np.sqrt(m2)
     mu = np.einsum("knd,kd->kn", resid, w)
+    return d, log_det[:, None], mu, m2, mu / m
+
+
+def _log_density(p, nu, d, log_det, big_a):
+    """log f from the geometry; returns (log f, log T_{ν+p}(·)), ν a column (K, 1) or a scalar."""
+    a, b = (nu + p) / 2.0, (nu + d) / 2.0
+    log_t = gammaln(a) - gammaln(nu / 2.0) - 0.5 * p * (np.log(nu) + LOG_PI) - 0.5 * log_det - a * np.log1p(d / nu)
+    log_cdf = _log_stdtr(nu + p, big_a * np.sqrt(a / b))
+    return LOG_2 + log_t + log_cdf, log_cdf
+
+
+def terms(y, xis, gammas, deltas, nus, *, moments: bool = True):
+    """log f_k(y_j) (K, n), and with ``moments`` E[W|y], E[WU|y], E[WU²|y] (each (K, n))."""
+    p = y.shape[1]
+    d, log_det, mu, m2, big_a = _geometry(y, xis, gammas, deltas)
+    m = np.sqrt(m2)
     nu = np.asarray(nus, dtype=float)[:, None]
     a, b = (nu + p) / 2.0, (nu + d) / 2.0
-    big_a = mu / m
-    log_t = (gammaln(a) - gammaln(nu / 2.0) - 0.5 * p * (np.log(nu) + LOG_PI) - 0.5 * log_det[:, None]
-             - a * np.log1p(d / nu))
-    log_cdf = _log_stdtr(nu + p, big_a * np.sqrt(a / b))
-    logf = LOG_2 + log_t + log_cdf
+    logf, log_cdf = _log_density(p, nu, d, log_det, big_a)
     if not moments:
         return logf
     e0 = (a / b) * np.exp(_log_stdtr(nu + p + 2.0, big_a * np.sqrt((a + 1.0) / b)) - log_cdf)
@@ -113,29 +124,40 @@ def mean_of_u(nus) -> np.ndarray:
     return np.where(nu > 1.0, value, np.inf)
 
 
-def update_nus(y, weights, xis, gammas, deltas, nus, bounds: tuple[float, float]) -> np.ndarray:
-    """ECME step for ν: each component's ν in turn maximises the mixture's actual log-likelihood, the other
-    parameters fixed (``scipy.optimize.minimize_scalar`` on log ν within ``bounds``); a candidate that does
-    not raise the log-likelihood is not taken, so the step never lowers it."""
-    from scipy.optimize import minimize_scalar
-
+def update_nus(y, weights, xis, gammas, deltas, nus, bounds: tuple[float, float], h: float = 1e-3) -> np.ndarray:
+    """The ν step (ECME in the manner of Liu & Rubin 1994, as a generalised EM step): each component's ν in
+    turn moves to raise the mixture's actual log-likelihood, the other parameters fixed, by one Newton step
+    in s = log ν (first and second derivatives by central differences of width ``h``), halved until it
+    raises the log-likelihood (at most 8 times; else ν stays), within ``bounds``. The log-likelihood never
+    decreases, and at a fixed point its derivative in ν is zero, as at the maximum."""
     nus = np.array(nus, dtype=float)
+    p = y.shape[1]
+    d, log_det, _, _, big_a = _geometry(y, xis, gammas, deltas)
     with np.errstate(divide="ignore"):
-        logd = terms(y, xis, gammas, deltas, nus, moments=False) + np.log(weights)[:, None]
+        log_w = np.log(weights)
+    logd = _log_density(p, nus[:, None], d, log_det, big_a)[0] + log_w[:, None]
+    low, high = np.log(bounds[0]), np.log(bounds[1])
     for k in range(len(nus)):
         rest = np.delete(logd, k, axis=0)
         rest = np.logaddexp.reduce(rest, axis=0) if len(rest) else np.full(y.shape[0], -np.inf)
 
-        def component(log_nu, k=k):
-            return terms(y, xis[k:k + 1], gammas[k:k + 1], deltas[k:k + 1], np.array([np.exp(log_nu)]),
-                         moments=False)[0] + np.log(weights[k])
+        def component(s, k=k):
+            return _log_density(p, np.exp(s), d[k], log_det[k], big_a[k])[0] + log_w[k]
 
-        def negll(log_nu):
-            return -float(np.sum(np.logaddexp(component(log_nu), rest)))
+        def loglik(s):
+            return float(np.sum(np.logaddexp(component(s), rest)))
 
-        res = minimize_scalar(negll, bounds=(np.log(bounds[0]), np.log(bounds[1])), method="bounded",
-                              options={"xatol": 1e-5})
-        if res.fun < negll(np.log(nus[k])):
-            nus[k] = float(np.exp(res.x))
-            logd[k] = component(res.x)
+        s0 = float(np.log(nus[k]))
+        f0 = float(np.sum(np.logaddexp(logd[k], rest)))
+        fp, fm = loglik(s0 + h), loglik(s0 - h)
+        grad, curv = (fp - fm) / (2 * h), (fp - 2 * f0 + fm) / (h * h)
+        step = -grad / curv if curv < 0 else np.sign(grad)
+        step = float(np.clip(step, -1.0, 1.0))
+        for _ in range(8):
+            s1 = float(np.clip(s0 + step, low, high))
+            if s1 != s0 and loglik(s1) > f0:
+                nus[k] = float(np.exp(s1))
+                logd[k] = component(s1)
+                break
+            step /= 2.0
     return nus
