@@ -93,6 +93,8 @@ def test_two_skewed_heavy_tailed_groups_are_recovered():
     fits = fit_mixtures(x, ("skewt",), kmax=2, starts=1, seed=0)
     best = preferred_fit(fits)
     assert (best.family, best.n_components) == ("skewt", 2)
+    for trace in best.start_traces:                       # ECM/ECME never decreases the likelihood
+        assert np.all(np.diff(trace) >= -1e-8 * np.abs(trace[1:]))
     assert adjusted_rand_score(truth, best.posterior(x).argmax(axis=1)) >= 0.9
     assert n_free_parameters("skewt", 2, 2) == n_free_parameters("skewnormal", 2, 2) + 2 == best.n_params
 
