@@ -39,7 +39,7 @@ def _failed(outcome) -> bool:
 def test_chunks_give_the_outcomes_one_task_each_gives(jobs, monkeypatch):
     config, found = jobs
     single = engine.run_jobs(config, found, 1, None)
-    monkeypatch.setattr(engine, "chunk_size", lambda n, workers: 4)
+    monkeypatch.setattr(engine, "task_bounds", lambda n, workers: [(0, 4), (4, 6)])
     seen = []
     pooled = engine.run_jobs(config, found, 2, lambda pid, i, n: seen.append(i))
     assert [o.participant for o in pooled] == list(PIDS)
@@ -59,7 +59,7 @@ def test_a_participant_that_raises_loses_only_itself(jobs, monkeypatch):
         return real(cfg, job)
 
     monkeypatch.setattr(engine, "process_participant", flaky)
-    monkeypatch.setattr(engine, "chunk_size", lambda n, workers: 3)  # P02 shares its task with P01 and P03
+    monkeypatch.setattr(engine, "task_bounds", lambda n, workers: [(0, 3), (3, 6)])  # P02 shares its task with P01 and P03
     outcomes = {o.participant: o for o in engine.run_jobs(config, found, 2, None)}
     assert set(outcomes) == set(PIDS)
     assert _failed(outcomes["P02"]) and "boom in P02" in outcomes["P02"].qc[0].message
@@ -78,8 +78,17 @@ def test_a_worker_that_dies_costs_participants_not_the_batch(jobs, monkeypatch):
         return real(cfg, job)
 
     monkeypatch.setattr(engine, "process_participant", dies)
-    monkeypatch.setattr(engine, "chunk_size", lambda n, workers: 2)
+    monkeypatch.setattr(engine, "task_bounds", lambda n, workers: [(0, 2), (2, 4), (4, 6)])
     outcomes = {o.participant: o for o in engine.run_jobs(config, found, 2, None)}
     assert set(outcomes) == set(PIDS)  # every participant is accounted for
     assert _failed(outcomes["P05"]) and _failed(outcomes["P06"])  # P05's task: P05 and P06
     assert all(o.rows or _failed(o) for o in outcomes.values())
+
+
+@pytest.mark.parametrize("n,workers", [(1, 2), (5, 2), (16, 2), (33, 2), (200, 2), (200, 8), (1000, 3)])
+def test_task_bounds_cover_every_job_once_in_order(n, workers):
+    bounds = engine.task_bounds(n, workers)
+    assert [j for a, b in bounds for j in range(a, b)] == list(range(n))
+    assert all(1 <= b - a <= 4 for a, b in bounds)
+    if n >= 16 * workers:  # tasks of several participants, the last ones single
+        assert max(b - a for a, b in bounds) > 1 and all(b - a == 1 for a, b in bounds[-2 * workers:])

@@ -185,16 +185,15 @@ def run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
             _preload()
             pool = ProcessPoolExecutor(max_workers=min(workers, n))
         try:
-            size = chunk_size(n, workers)
-            futures = {pool.submit(run_chunk, config, jobs[a:a + size], inputs[a:a + size]): a
-                       for a in range(0, n, size)}
+            futures = {pool.submit(run_chunk, config, jobs[a:b], inputs[a:b]): (a, b)
+                       for a, b in task_bounds(n, workers)}
             i = 0
             for fut in as_completed(futures):
-                a = futures[fut]
+                a, b = futures[fut]
                 try:
                     got = fut.result()
                 except Exception as exc:  # the worker died: its few participants are lost, not the study
-                    got = [failed_outcome(config, job, exc, inp) for job, inp in zip(jobs[a:a + size], inputs[a:a + size])]
+                    got = [failed_outcome(config, job, exc, inp) for job, inp in zip(jobs[a:b], inputs[a:b])]
                 for j, outcome in enumerate(got):
                     i += 1
                     finish(a + j, outcome, i)
@@ -206,15 +205,18 @@ def run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
     return sorted(outcomes, key=lambda o: o.participant)
 
 
-def chunk_size(n: int, workers: int) -> int:
-    """Participants per pool task: about 8 tasks per worker, at most 4 participants each.
+def task_bounds(n: int, workers: int) -> list[tuple[int, int]]:
+    """The pool's tasks as [start, stop) ranges of the jobs: a few participants each, single ones at the end.
 
-    Every task costs a round trip through the pool (pickling, two pipes, a wake-up
-    of this process); a few participants a task cut the workers' time outside the
-    participants' own work by about a third on the 200-participant benchmark, and
-    the last task still ends within a few participants' time (DEVELOPERS.md).
+    Every task costs a round trip through the pool (pickling, two pipes, a
+    wake-up of this process), so most tasks hold up to 4 participants (about 8
+    tasks per worker); the last 2 per worker hold one each, so the workers
+    finish within about one participant's time of each other (DEVELOPERS.md).
     """
-    return max(1, min(4, n // (workers * 8)))
+    size = max(1, min(4, n // (workers * 8)))
+    tail = min(n, 2 * workers) if size > 1 else 0
+    bounds = [(a, min(a + size, n - tail)) for a in range(0, n - tail, size)]
+    return bounds + [(a, a + 1) for a in range(n - tail, n)]
 
 
 def run_chunk(config: StudyConfig, jobs: list[ParticipantJob], inputs: list) -> list[ParticipantOutcome]:
