@@ -12,6 +12,7 @@ tables are built in ``run.tables``.
 from __future__ import annotations
 
 import datetime as dt
+import gc
 from concurrent.futures import ProcessPoolExecutor, ThreadPoolExecutor, as_completed
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -182,8 +183,7 @@ def run_jobs(config: StudyConfig, jobs: list[ParticipantJob], workers: int,
     else:
         own = pool is None  # a pool of its own, or the caller's (batch keeps it for writing the tables)
         if own:
-            _preload()
-            pool = ProcessPoolExecutor(max_workers=min(workers, n))
+            pool = _new_pool(min(workers, n))
         try:
             futures = {pool.submit(run_chunk, config, jobs[a:b], inputs[a:b]): (a, b)
                        for a, b in task_bounds(n, workers)}
@@ -234,8 +234,27 @@ def process_pool(workers: int, scheduler: str | None, n_jobs: int) -> ProcessPoo
     """The worker pool of a run with --workers N > 1 and no Dask scheduler (None otherwise)."""
     if scheduler or workers <= 1 or n_jobs <= 1:
         return None
+    return _new_pool(min(workers, n_jobs))
+
+
+def _new_pool(workers: int) -> ProcessPoolExecutor:
+    """A process pool whose workers fork from this process with the readers imported.
+
+    ``gc.freeze`` first (the Python docs' advice for fork without exec): the
+    objects this process holds then are never traversed by the workers'
+    collections, so those do not touch, and copy, the pages they share.
+    """
     _preload()
-    return ProcessPoolExecutor(max_workers=min(workers, n_jobs))
+    gc.freeze()  # measured: batch about 4 % faster on the 200-participant cohort (DEVELOPERS.md)
+    return _FrozenPool(max_workers=workers)
+
+
+class _FrozenPool(ProcessPoolExecutor):
+    """A process pool that gives this process's objects back to its collector once shut down."""
+
+    def shutdown(self, wait: bool = True, *, cancel_futures: bool = False) -> None:
+        super().shutdown(wait=wait, cancel_futures=cancel_futures)
+        gc.unfreeze()
 
 
 def _preload() -> None:
