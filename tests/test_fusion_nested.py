@@ -15,7 +15,7 @@ import pandas as pd
 import pytest
 from scipy import stats
 
-from sleepfuse.fusion.agreement import agreement, bland_altman, lins_ccc, multi_night_limits, proportional_bias
+from sleepfuse.fusion.agreement import agreement, bland_altman, lins_ccc, proportional_bias
 from sleepfuse.fusion.nested import (
     _resample_counts,
     cluster_bootstrap,
