@@ -245,7 +245,7 @@ def _new_pool(workers: int) -> ProcessPoolExecutor:
     collections, so those do not touch, and copy, the pages they share.
     """
     _preload()
-    gc.freeze()  # measured: batch about 4 % faster on the 200-participant cohort (DEVELOPERS.md)
+    gc.freeze()  # measured: about 2 % off three batches of the 200-participant cohort (DEVELOPERS.md)
     return _FrozenPool(max_workers=workers)
 
 

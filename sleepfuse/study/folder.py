@@ -154,14 +154,13 @@ def _matches(root: Path, source: str, pattern: str, qc: QCLog) -> list[Path]:
         return []
 
 
-def _readable_input(path: Path, root: Path, rel: str, qc: QCLog, real: dict[Path, Path] | None = None) -> bool:
+def _readable_input(path: Path, root: Path, rel: str, qc: QCLog, real: dict[Path, Path]) -> bool:
     """True for a regular file (possibly through a link); every other match gets a QC line and is skipped.
 
     ``real`` remembers resolved folders across calls (the study root and each
     folder of files): a plain file is inside the study when its folder is, so
     only links are resolved one by one.
     """
-    real = {} if real is None else real
     try:
         mode = os.lstat(path).st_mode
         link = stat.S_ISLNK(mode)
