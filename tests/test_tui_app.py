@@ -63,6 +63,22 @@ async def test_overview_loads_in_worker_and_shows_at_once(tmp_path):
 
 
 @run_async
+async def test_enter_on_a_blank_cell_opens_no_other_night(demo):
+    """A cell with no scored night opens nothing in its place: the overview stays and names the nearest
+    nights (it used to open P03's nearest night silently: the app must never open the wrong night)."""
+    app = create_app(SAMPLE, preloaded=demo)
+    async with app.run_test(size=SIZE) as pilot:
+        await goto_cell(pilot, "P03", "2026-10-27")  # before P03's first day: a blank cell
+        assert cell(app, "P03", "2026-10-27") == "    "
+        await pilot.press("enter")
+        await settle(pilot)
+        assert isinstance(app.screen, OverviewScreen)
+        assert app.screen.current() == ("P03", "2026-10-27")
+        messages = [n.message for n in app._notifications]
+        assert messages == ["P03 has no scored night on 2026-10-27; nearest: 2026-10-28"]
+
+
+@run_async
 async def test_night_view_and_stepping(demo):
     app = create_app(SAMPLE, preloaded=demo)
     async with app.run_test(size=SIZE) as pilot:

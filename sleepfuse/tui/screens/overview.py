@@ -248,8 +248,9 @@ class OverviewScreen(Screen):
         if not nights:
             self.notify(f"{pid} has no scored night", severity="warning")
             return
-        if night not in nights:  # a blank cell: open the participant's nearest night
-            night = min(nights, key=lambda n: abs((_date(n) - _date(night or nights[0])).days))
+        if night not in nights:  # a blank cell: never open another night in its place
+            self.notify(blank_cell_message(pid, night, nights), severity="warning")
+            return
         self.app.open_night(pid, night)
 
     def _review(self, decision: str) -> None:
@@ -279,10 +280,14 @@ def night_label(iso: str, *, first: bool = False) -> Text:
     return Text(f"{month}\n{day:%a}"[: len(month) + 3] + f"{day.day:02d}")
 
 
-def _date(iso: str):
-    import datetime as dt
-
-    return dt.date.fromisoformat(iso)
+def blank_cell_message(pid: str, night: str | None, nights: list[str]) -> str:
+    """What Enter on a blank cell says: no night there, and the participant's scored nights either side."""
+    if night is None:
+        return f"{pid}: choose a night column ({len(nights)} scored nights)"
+    before = [n for n in nights if n < night]
+    after = [n for n in nights if n > night]
+    near = ", ".join(n for n in (before[-1] if before else None, after[0] if after else None) if n)
+    return f"{pid} has no scored night on {night}; nearest: {near}"
 
 
 def _date_range(nights) -> list[str]:
