@@ -6,7 +6,7 @@
 Each fast path is timed against the general path still in the package, on the
 same files, best of a few repeats in this one process:
 
-* wall-clock columns: ``model.clock.instants._single_offset`` (one UTC offset
+* wall-clock columns: ``model.clock.instants._clean_offsets`` (UTC offsets
   over the whole span) against pandas' ``tz_localize`` with the DST rules;
 * plain actigraphy CSVs: pyarrow's reader (``readers.actigraphy._read_plain``)
   against the careful path that reads any dialect and reports by line;
@@ -106,8 +106,8 @@ def main() -> None:
     walls = [(r.start.tz_localize(None).value // 1000 + np.arange(r.counts.size, dtype=np.int64)
               * int(r.epoch_s * 1e6)) for r in records]
     localize = lambda: [instants.wall_to_utc(w, tz) for w in walls]  # noqa: E731
-    rows.append(("wall-clock column: one offset over the span vs tz_localize with the DST rules",
-                 best(localize), swapped(instants, "_single_offset", lambda *a: None, localize)))
+    rows.append(("wall-clock column: offsets over the span vs tz_localize with the DST rules",
+                 best(localize), swapped(instants, "_clean_offsets", lambda *a: None, localize)))
 
     edfs = [p for j in jobs for p in j.files.get("psg", [])]
     opened = []

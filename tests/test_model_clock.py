@@ -18,7 +18,7 @@ import pytest
 
 from sleepfuse.model.clock import (GAP, REPEAT, clock_on_night, elapsed_min, localize, night_of, nights_of,
                                    place_clock, place_wall, wall_to_utc)
-from sleepfuse.model.clock.instants import _single_offset
+from sleepfuse.model.clock.instants import _clean_offsets
 
 NAT = np.iinfo(np.int64).min
 CHICAGO = "America/Chicago"
@@ -71,15 +71,41 @@ def test_a_spring_gap_time_is_read_with_the_offset_before_the_change_and_flagged
 
 @pytest.mark.parametrize("tz,start,end", WINDOWS + [
     ("Europe/Berlin", "2026-06-01", "2026-06-15"), ("UTC", "2026-03-27", "2026-03-31"),
-    ("Asia/Kathmandu", "2026-05-01", "2026-05-09"),
+    ("Asia/Kathmandu", "2026-05-01", "2026-05-09"), ("Europe/Berlin", "2026-03-16", "2026-03-31"),
+    ("America/Chicago", "2026-02-20", "2027-01-10"), ("Africa/Casablanca", "2026-01-01", "2026-12-31"),
 ])
-def test_single_offset_fast_path_answers_only_when_one_offset_holds(tz, start, end):
+@pytest.mark.parametrize("holes", [False, True])
+def test_clean_offsets_fast_path_is_tz_localize_and_declines_gap_or_repeated_times(tz, start, end, holes):
+    """The fast path's offsets are pandas' wherever every wall time exists once (source: pandas
+    ``tz_localize`` on the IANA database); it answers None whenever one does not. With ``holes`` the
+    skipped and repeated wall times are left out of the column, as a device clock that follows the
+    change records them: the fast path must then answer across the change."""
     wall = np.arange(np.datetime64(start, "us"), np.datetime64(end, "us"), np.timedelta64(30, "s"))
     ref = pandas_reference(wall, tz)
+    if holes:
+        wall, ref = wall[ref != NAT], ref[ref != NAT]
     w = wall.view(np.int64)
-    offsets = set((w - ref)[ref != NAT].tolist())
-    got = _single_offset(w, tz)
-    assert got == (offsets.pop() if len(offsets) == 1 and (ref != NAT).all() else None)
+    got = _clean_offsets(w, tz)
+    if (ref == NAT).any():
+        assert got is None
+        return
+    np.testing.assert_array_equal(wall_to_utc(wall, tz)[0], ref)
+    if got is None:  # declines only when a 6-h probe lands on a skipped wall time: Apia's missing day
+        assert holes and tz == "Pacific/Apia"
+    else:
+        np.testing.assert_array_equal(w - got, ref)
+
+
+def test_clean_offsets_declines_a_single_time_in_the_gap_between_probes():
+    # Berlin 2026-03-29 02:00-03:00 does not exist (EU rule); one reading at 02:17:30 among hourly ones
+    wall = np.arange(np.datetime64("2026-03-27T12:00", "us"), np.datetime64("2026-03-31T12:00", "us"),
+                     np.timedelta64(1, "h"))
+    wall = wall[(wall < np.datetime64("2026-03-29T02:00")) | (wall >= np.datetime64("2026-03-29T03:00"))]
+    assert _clean_offsets(wall.view(np.int64), "Europe/Berlin") is not None
+    odd = np.sort(np.r_[wall, np.datetime64("2026-03-29T02:17:30", "us")])
+    assert _clean_offsets(odd.view(np.int64), "Europe/Berlin") is None
+    utc, gap = wall_to_utc(odd, "Europe/Berlin")
+    assert gap.sum() == 1
 
 
 ZONES = ["Europe/Berlin", "America/New_York", "Australia/Lord_Howe", "America/Havana", "UTC", "Asia/Kolkata"]

@@ -76,9 +76,9 @@ def wall_to_utc(wall_us: np.ndarray, tz: str) -> tuple[np.ndarray, np.ndarray]:
     gap = np.zeros(n, dtype=bool)
     if n == 0:
         return np.zeros(0, dtype=np.int64), gap
-    single = _single_offset(w, tz)
-    if single is not None:  # the common file: one offset over its whole span (fast path, DEVELOPERS.md)
-        return w - single, gap
+    offsets = _clean_offsets(w, tz)
+    if offsets is not None:  # the common file: no wall time in a gap or a repeated hour (fast path, DEVELOPERS.md)
+        return w - offsets, gap
     idx = pd.DatetimeIndex(w.view("datetime64[us]"))
     plain = idx.tz_localize(tz, ambiguous="NaT", nonexistent="NaT").as_unit("us").asi8.copy()
     odd = np.flatnonzero(plain == _NAT)
@@ -113,18 +113,24 @@ def wall_to_utc(wall_us: np.ndarray, tz: str) -> tuple[np.ndarray, np.ndarray]:
     return utc, gap
 
 
-def _single_offset(w: np.ndarray, tz: str) -> int | None:
-    """The zone's UTC offset (µs) if one offset holds over the whole span of wall µs ``w``, else None.
+def _clean_offsets(w: np.ndarray, tz: str) -> np.ndarray | int | None:
+    """The zone's UTC offset (µs) of each wall µs of ``w``, or None if any lies in a gap or a repeated hour.
 
-    Asks the zone (both PEP 495 folds) every 6 h of wall time and at both ends:
-    equal answers everywhere mean no change in between, since no zone changes
-    its offset twice within 6 h. About 60 zone lookups for two weeks of data.
+    Asks the zone (both PEP 495 folds) every 6 h of wall time and at both ends;
+    no zone changes its offset twice within 6 h, so equal answers at two
+    neighbouring probes mean no change between them (about 60 zone lookups for
+    two weeks of data). Between two that differ, the change's instant is found
+    by bisection in UTC seconds. Then every wall time before the change's odd
+    stretch (the skipped or repeated wall times) has the offset before it, every
+    one after it the offset after it, which is what ``tz_localize`` gives them;
+    a wall time inside the stretch (or a probe landing in one) returns None and
+    the general path applies the DST rules. One offset throughout: an int.
     """
     lo, hi = int(w.min()), int(w.max())
     if hi - lo > 400 * 24 * _HOUR_US:
         return None
     info = zone(tz)
-    first = None
+    probes = []
     for us in [*range(lo, hi, _COARSE_US), hi]:
         try:
             naive = _EPOCH + dt.timedelta(microseconds=us)
@@ -132,7 +138,46 @@ def _single_offset(w: np.ndarray, tz: str) -> int | None:
             b = naive.replace(tzinfo=info, fold=1).utcoffset()
         except (OverflowError, ValueError):  # beyond datetime's years 1-9999: the general path decides
             return None
-        if a is None or b != a or (first is not None and a != first):
+        if a is None or b != a:
             return None
-        first = a
-    return (first.days * 86400 + first.seconds) * _US + first.microseconds
+        probes.append((us, (a.days * 86400 + a.seconds) * _US + a.microseconds))
+    first = probes[0][1]
+    if all(off == first for _, off in probes):
+        return first
+    offsets = np.full(w.size, first, dtype=np.int64)
+    for (p0, before), (p1, after) in zip(probes, probes[1:]):
+        if before == after:
+            continue
+        change = _change_instant(info, (p0 - before) // _US, -((after - p1) // _US))  # UTC seconds
+        if change is None or _offset_us(info, change - 1) != before or _offset_us(info, change) != after:
+            return None
+        odd_from, odd_to = change * _US + min(before, after), change * _US + max(before, after)
+        if ((w >= odd_from) & (w < odd_to)).any():
+            return None
+        offsets[w >= odd_to] = after
+    return offsets
+
+
+def _offset_us(info: dt.tzinfo, second: int) -> int:
+    off = dt.datetime.fromtimestamp(second, info).utcoffset()
+    return (off.days * 86400 + off.seconds) * _US + off.microseconds
+
+
+def _change_instant(info: dt.tzinfo, lo: int, hi: int) -> int | None:
+    """The first UTC second in (lo, hi] whose offset differs from lo's (one change between them)."""
+    def offset(s: int) -> dt.timedelta | None:
+        return dt.datetime.fromtimestamp(s, info).utcoffset()
+
+    try:
+        start, end = offset(lo), offset(hi)
+    except (OverflowError, ValueError, OSError):
+        return None
+    if start is None or start == end:
+        return None
+    while hi - lo > 1:
+        mid = (lo + hi) // 2
+        if offset(mid) == start:
+            lo = mid
+        else:
+            hi = mid
+    return hi
