@@ -34,7 +34,7 @@ from .opportunity import (
     marker_window,
     psg_window,
 )
-from .parameters import COMMON_PARAMETERS, STAGE_PARAMETERS, sleep_parameters, sleep_parameters_many
+from .parameters import COMMON_PARAMETERS, STAGE_PARAMETERS, sleep_parameters_many
 from .rhythm import RHYTHM_PARAMETERS, rest_activity_rhythm
 
 KEY_COLUMNS = ["participant", "night", "source"]
@@ -157,13 +157,15 @@ def _gap_text(start: pd.Timestamp, codes: np.ndarray, limit: int = 3) -> str:
     return "; ".join(parts) + more
 
 
-def _check_missing(row: dict, window_start: pd.Timestamp, codes: np.ndarray, note: _Notes, config: StudyConfig) -> None:
+def _check_missing(row: dict, window_start: pd.Timestamp, head: float, codes: np.ndarray, note: _Notes,
+                   config: StudyConfig) -> None:
     """Minutes of the opportunity without data (a gap in the file, or outside the recording): named on
-    the row; more than ``[scoring] max_missing_pct`` of the opportunity excludes the night."""
+    the row; more than ``[scoring] max_missing_pct`` of the opportunity excludes the night. ``codes``
+    are the window's minutes, the first ``head`` minutes after ``window_start``."""
     missing, tib = row["missing_min"], row["tib_min"]
     if not missing or not tib or tib <= 0 or math.isnan(missing):
         return
-    where = _gap_text(window_start, codes)
+    where = _gap_text(window_start + pd.Timedelta(minutes=head), codes)
     limit = config.scoring.max_missing_pct
     pct = 100.0 * missing / tib
     if pct > limit:
@@ -174,33 +176,45 @@ def _check_missing(row: dict, window_start: pd.Timestamp, codes: np.ndarray, not
                         "these minutes are neither sleep nor wake")
 
 
-def score_psg(config: StudyConfig, participant: str, h: Hypnogram, qc: QCLog, out: ScoredParticipant) -> None:
-    night = hypnogram_night(h)
-    row = _row(participant, night, "psg")
-    note = _Notes(qc, row, study_path(h.path, config.root))
-    window, why = psg_window(h)
-    out.hypnograms[row["night"]] = h
-    if window is None:
-        note("error", why, exclude=True)
+def score_psg(config: StudyConfig, participant: str, hypnograms: list[Hypnogram], qc: QCLog,
+              out: ScoredParticipant) -> None:
+    """Score a participant's hypnograms, each on its window, the parameters of all in one pass."""
+    planned = []
+    for h in hypnograms:
+        window, why = psg_window(h)
+        planned.append((h, window, why, None if window is None else cut_window(h.start, h.epoch_s, h.stages, window)))
+    params = {}
+    for epoch_s in dict.fromkeys(h.epoch_s for h, window, _, _ in planned if window is not None):
+        ks = [k for k, (h, window, _, _) in enumerate(planned) if window is not None and h.epoch_s == epoch_s]
+        got = sleep_parameters_many([planned[k][3][0] for k in ks], epoch_s, staged=True,
+                                    lps_run_min=config.scoring.lps_run_min,
+                                    min_wake_bout_min=config.scoring.min_wake_bout_min)
+        params.update(zip(ks, got))
+    for k, (h, window, why, cut) in enumerate(planned):
+        night = hypnogram_night(h)
+        row = _row(participant, night, "psg")
+        note = _Notes(qc, row, study_path(h.path, config.root))
+        out.hypnograms[row["night"]] = h
+        if window is None:
+            note("error", why, exclude=True)
+            out.rows.append(row)
+            continue
+        if why:
+            note("warning", why)
+        _set_window(row, window)
+        out.windows[(row["night"], "psg")] = window
+        if cut[1] > 0:
+            note("warning", f"{cut[1]:.1f} min of the sleep opportunity lie outside the scored hypnogram "
+                            "(counted unscored)")
+        p = params[k]
+        exact_times(p, window, *edge_minutes(h.start, h.epoch_s, window))
+        for key in SOURCE_PARAMETERS["psg"]:
+            row[key] = p[key]
+        if h.unknown_labels:
+            labels = ", ".join(f"{k!r} ({v} epochs)" for k, v in h.unknown_labels.items())
+            note("warning", f"unknown stage labels counted as unscored: {labels}", logged=True)
+        _check_invalid(row, p, note, config)
         out.rows.append(row)
-        return
-    if why:
-        note("warning", why)
-    _set_window(row, window)
-    out.windows[(row["night"], "psg")] = window
-    codes, outside = cut_window(h.start, h.epoch_s, h.stages, window)
-    if outside > 0:
-        note("warning", f"{outside:.1f} min of the sleep opportunity lie outside the scored hypnogram (counted unscored)")
-    params = sleep_parameters(codes, h.epoch_s, staged=True, lps_run_min=config.scoring.lps_run_min,
-                              min_wake_bout_min=config.scoring.min_wake_bout_min)
-    exact_times(params, window, *edge_minutes(h.start, h.epoch_s, window))
-    for k in SOURCE_PARAMETERS["psg"]:
-        row[k] = params[k]
-    if h.unknown_labels:
-        labels = ", ".join(f"{k!r} ({v} epochs)" for k, v in h.unknown_labels.items())
-        note("warning", f"unknown stage labels counted as unscored: {labels}", logged=True)
-    _check_invalid(row, params, note, config)
-    out.rows.append(row)
 
 
 def score_actigraphy_record(config: StudyConfig, rec: ActigraphyRecord, qc: QCLog, participant: str) -> ActigraphyScoring:
@@ -292,7 +306,7 @@ def score_actigraphy_windows(
         p["missing_min"] = p["unscored_min"]  # actigraphy's unscored minutes are the minutes without data
         for key in keys:
             row[key] = p[key]
-        _check_missing(row, window.start + pd.Timedelta(minutes=head), cuts[k][0], note, config)
+        _check_missing(row, window.start, head, cuts[k][0], note, config)
         _check_invalid(row, p, note, config)
         out.rows.append(row)
 
@@ -337,8 +351,7 @@ def score_participant(config: StudyConfig, rec: ParticipantRecords, qc: QCLog) -
         if kept is not None and diary_window(kept) is not None:
             usable_diary[entry.night] = kept
             out.diary[entry.night.isoformat()] = kept
-    for h in rec.hypnograms:
-        score_psg(config, rec.participant, h, qc, out)
+    score_psg(config, rec.participant, rec.hypnograms, qc, out)
     done: set[dt.date] = set()
     best: ActigraphyRecord | None = None
     for a in sorted(rec.actigraphy, key=lambda a: a.start):
