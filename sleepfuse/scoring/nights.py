@@ -105,12 +105,19 @@ def _iso(t: pd.Timestamp) -> str:
     seconds keep every time stamp of the table in one form; the parameters are
     computed from the exact times.
     """
-    if t.microsecond or t.nanosecond:  # rounded in UTC: wall-clock rounding fails on the repeated DST hour
-        t = t.tz_convert("UTC").round("s").tz_convert(t.tz) if t.tz is not None else t.round("s")
-    return _datetime_iso(t)
+    key = (t.value, t.tzinfo)
+    text = _ISO_TEXTS.get(key)
+    if text is None:
+        if t.microsecond or t.nanosecond:  # rounded in UTC: wall-clock rounding fails on the repeated DST hour
+            t = t.tz_convert("UTC").round("s").tz_convert(t.tz) if t.tz is not None else t.round("s")
+        if len(_ISO_TEXTS) >= 4096:
+            _ISO_TEXTS.clear()
+        text = _ISO_TEXTS[key] = _datetime_iso(t)
+    return text
 
 
 _datetime_iso = dt.datetime.isoformat
+_ISO_TEXTS: dict[tuple[int, object], str] = {}  # a window's times recur (a diary window is also actigraphy's)
 
 
 def _set_window(row: dict, w: Window) -> None:
