@@ -158,7 +158,7 @@ def test_no_sleep_night_is_not_an_error(tmp_path):
 def test_window_times_written_as_pandas_isoformat():
     # Reference: pandas Timestamp.isoformat of the time rounded to the second in UTC (the night table's
     # window_start / window_end text: whole seconds, issue 15.14).
-    from sleepfuse.scoring.nights import _iso
+    from sleepfuse.scoring.night_rows import _iso
 
     rng = np.random.default_rng(11)
     for zone in ("Europe/Berlin", "America/Chicago", "Asia/Kolkata", "Australia/Lord_Howe", "UTC", None):

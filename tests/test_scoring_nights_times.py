@@ -8,7 +8,7 @@ from pathlib import Path
 import pandas as pd
 
 from sleepfuse.run.engine import run_study
-from sleepfuse.scoring.nights import _iso
+from sleepfuse.scoring.night_rows import _iso
 
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_records"
 STAMP = re.compile(r"^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d[+-]\d\d:\d\d$")
