@@ -7,6 +7,7 @@ minutes) are the notes and exclusions every source's row gets the same way.
 from __future__ import annotations
 
 import datetime as dt
+import functools
 import math
 
 import numpy as np
@@ -37,32 +38,64 @@ def _row(participant: str, night: dt.date, source: str) -> dict:
 
 
 def _iso(t: pd.Timestamp) -> str:
-    """The time in whole seconds with its offset ('2026-10-28T06:47:30-06:00'), rounded to the nearest second.
+    """One time as ``iso_seconds`` writes it."""
+    return iso_seconds([t])[0]
+
+
+def iso_seconds(times: list[pd.Timestamp]) -> list[str]:
+    """Each time in whole seconds with its offset ('2026-10-28T06:47:30-06:00'), rounded to the nearest second.
 
     A window may start at a fraction of a second (an EDF+ record onset); printing
     it as is gave float noise ('06:47:30.430999999') beside microseconds. Whole
     seconds keep every time stamp of the table in one form; the parameters are
-    computed from the exact times.
+    computed from the exact times. Rounding is pandas' ``Timestamp.round("s")``
+    (half to even) of the UTC time, since wall-clock rounding fails on the
+    repeated DST hour; the text is ``datetime.isoformat``'s. All the times of a
+    participant in one pass: their offsets from one ``tz_convert`` per zone.
     """
-    key = (t.value, t.tzinfo)
-    text = _ISO_TEXTS.get(key)
-    if text is None:
-        if t.microsecond or t.nanosecond:  # rounded in UTC: wall-clock rounding fails on the repeated DST hour
-            t = t.tz_convert("UTC").round("s").tz_convert(t.tz) if t.tz is not None else t.round("s")
-        if len(_ISO_TEXTS) >= 4096:
-            _ISO_TEXTS.clear()
-        text = _ISO_TEXTS[key] = _datetime_iso(t)
-    return text
+    out: list[str] = [""] * len(times)
+    by_zone: dict[object, list[int]] = {}
+    for i, t in enumerate(times):
+        by_zone.setdefault(t.tzinfo, []).append(i)
+    for info, where in by_zone.items():
+        q, r = np.divmod(np.array([times[i].value for i in where], dtype=np.int64), _NS)
+        q += (r > _NS // 2) | ((r == _NS // 2) & (q % 2 == 1))  # half to even, as Timestamp.round
+        utc = q * _NS
+        if info is None:
+            offsets = np.zeros(len(where), dtype=np.int64)
+        else:
+            local = pd.DatetimeIndex(utc.view("datetime64[ns]"), tz="UTC").tz_convert(times[where[0]].tz)
+            offsets = local.tz_localize(None).asi8 - utc
+        wall = np.datetime_as_string((utc + offsets).view("datetime64[ns]"), unit="s")
+        for i, text, off in zip(where, wall.tolist(), offsets.tolist()):
+            out[i] = text + ("" if info is None else _offset_text(off))
+    return out
 
 
-_datetime_iso = dt.datetime.isoformat
-_ISO_TEXTS: dict[tuple[int, object], str] = {}  # a window's times recur (a diary window is also actigraphy's)
+_NS = 1_000_000_000
+
+
+@functools.lru_cache(maxsize=64)
+def _offset_text(offset_ns: int) -> str:
+    """'+01:00' (or '+00:53:28'): a UTC offset as ``datetime.isoformat`` ends a time with it."""
+    zone = dt.timezone(dt.timedelta(microseconds=offset_ns // 1000))
+    return dt.datetime(2000, 1, 1, tzinfo=zone).isoformat()[19:]
 
 
 def _set_window(row: dict, w: Window) -> None:
-    row["window_start"] = _iso(w.start)
-    row["window_end"] = _iso(w.end)
+    """The window's rule, and its times for ``window_texts`` to write (``score_participant`` does, once)."""
+    row["window_start"] = w.start
+    row["window_end"] = w.end
     row["window_rule"] = w.rule
+
+
+def window_texts(rows: list[dict]) -> None:
+    """Write the window times ``_set_window`` left on the rows as text, all in one ``iso_seconds`` pass."""
+    timed = [row for row in rows if not isinstance(row["window_start"], str)]
+    if timed:
+        texts = iso_seconds([row["window_start"] for row in timed] + [row["window_end"] for row in timed])
+        for row, start, end in zip(timed, texts, texts[len(timed):]):
+            row["window_start"], row["window_end"] = start, end
 
 
 class _Notes:

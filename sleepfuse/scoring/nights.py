@@ -45,6 +45,7 @@ from .night_rows import (  # noqa: F401  (the columns are the night table's: imp
     _Notes,
     _row,
     _set_window,
+    window_texts,
 )
 from .rhythm import RHYTHM_PARAMETERS, rest_activity_rhythm
 
@@ -289,6 +290,7 @@ def score_participant(config: StudyConfig, rec: ParticipantRecords, qc: QCLog) -
         nonwear_epoch[: nw.size] = nw
         valid = ~nonwear_epoch & ~np.isnan(best.counts)
         out.rhythm = rest_activity_rhythm(best.start, best.epoch_s, best.counts, valid)
+    window_texts(out.rows)
     return out
 
 
