@@ -116,8 +116,8 @@ def wall_to_utc(wall_us: np.ndarray, tz: str) -> tuple[np.ndarray, np.ndarray]:
 def _clean_offsets(w: np.ndarray, tz: str) -> np.ndarray | int | None:
     """The zone's UTC offset (µs) of each wall µs of ``w``, or None if any lies in a gap or a repeated hour.
 
-    Asks the zone (both PEP 495 folds) every 6 h of wall time and at both ends;
-    no zone changes its offset twice within 6 h, so equal answers at two
+    Asks the zone (``tz_localize``, both folds) every 6 h of wall time and at both
+    ends; no zone changes its offset twice within 6 h, so equal answers at two
     neighbouring probes mean no change between them (about 60 zone lookups for
     two weeks of data). Between two that differ, the change's instant is found
     by bisection in UTC seconds. Then every wall time before the change's odd
@@ -130,17 +130,15 @@ def _clean_offsets(w: np.ndarray, tz: str) -> np.ndarray | int | None:
     if hi - lo > 400 * 24 * _HOUR_US:
         return None
     info = zone(tz)
-    probes = []
-    for us in [*range(lo, hi, _COARSE_US), hi]:
-        try:
-            naive = _EPOCH + dt.timedelta(microseconds=us)
-            a = naive.replace(tzinfo=info).utcoffset()
-            b = naive.replace(tzinfo=info, fold=1).utcoffset()
-        except (OverflowError, ValueError):  # beyond datetime's years 1-9999: the general path decides
-            return None
-        if a is None or b != a:
-            return None
-        probes.append((us, (a.days * 86400 + a.seconds) * _US + a.microseconds))
+    at = np.append(np.arange(lo, hi, _COARSE_US, dtype=np.int64), np.int64(hi))
+    try:  # both folds at once: NaT where a probe is skipped or repeated
+        utc = pd.DatetimeIndex(at.view("datetime64[us]")).tz_localize(
+            tz, ambiguous="NaT", nonexistent="NaT").as_unit("us").asi8
+    except (OverflowError, ValueError, pd.errors.OutOfBoundsDatetime):  # beyond pandas' range: the general path
+        return None
+    if (utc == _NAT).any():
+        return None
+    probes = list(zip(at.tolist(), (at - utc).tolist()))
     first = probes[0][1]
     if all(off == first for _, off in probes):
         return first
