@@ -103,8 +103,8 @@ def main() -> None:
                  best(read), swapped(actigraphy, "_read_plain", lambda *a, **k: None, read, 1)))
 
     records = read()
-    walls = [(r.start.tz_localize(None).value // 1000 + np.arange(r.counts.size, dtype=np.int64)
-              * int(r.epoch_s * 1e6)) for r in records]
+    # each record's epochs as its device wrote them: local wall clock, stepping at a DST change
+    walls = [r.epoch_times().tz_localize(None).as_unit("us").asi8 for r in records]
     localize = lambda: [instants.wall_to_utc(w, tz) for w in walls]  # noqa: E731
     rows.append(("wall-clock column: offsets over the span vs tz_localize with the DST rules",
                  best(localize), swapped(instants, "_clean_offsets", lambda *a: None, localize)))
