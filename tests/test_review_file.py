@@ -107,6 +107,16 @@ def test_workspace_opens_and_reports_the_review_file(study):
     _check_report(ws.qc.to_frame())
 
 
+def test_a_preloaded_study_reports_the_review_file_once(study):
+    # run_study already read the review file into its QC log; wrapping the result must not read it in again
+    from sleepfuse.run.engine import run_study
+    from sleepfuse.run.session import Workspace
+
+    result = run_study(study)
+    _check_report(result.qc.to_frame())
+    _check_report(Workspace.from_result(study, result).qc.to_frame())
+
+
 @run_async
 async def test_app_opens_a_study_with_a_bad_review_file(study):
     from sleepfuse.tui.app import create_app

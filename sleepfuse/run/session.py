@@ -118,7 +118,7 @@ class Workspace:
 
     def __init__(self, root: Path, config: StudyConfig, scored: list[ScoredParticipant], qc: QCLog,
                  epoch_rows: list[dict], *, jobs: dict[str, ParticipantJob] | None = None, keep_detail: bool = True,
-                 without_detail: set[str] = frozenset()):
+                 without_detail: set[str] = frozenset(), review_reported: bool = False):
         self.root = Path(root)
         self.config = config
         self.qc = qc
@@ -133,7 +133,8 @@ class Workspace:
             self._detail[s.participant] = s
         self.base_nights = night_table_of(scored)  # before review decisions
         self.rhythm = rhythm_table(scored)  # IS, IV, M10, L5, RA per participant (cached participants too)
-        self.refresh(qc)  # the review file's problems are reported once, when the study opens
+        # the review file's problems are reported once, when the study opens (or were, by run_study)
+        self.refresh(None if review_reported else qc)
         self._problems = problems_per_night(qc.entries)
 
     @classmethod
@@ -142,7 +143,8 @@ class Workspace:
         scored = list(result.participants.values())
         qc = QCLog(list(result.qc.entries))
         jobs, _ = plan_jobs(result.config, QCLog())
-        return cls(Path(root), result.config, scored, qc, list(result.epoch_rows), jobs={j.participant: j for j in jobs})
+        return cls(Path(root), result.config, scored, qc, list(result.epoch_rows), jobs={j.participant: j for j in jobs},
+                   review_reported=True)
 
     @classmethod
     def load(cls, root: str | Path) -> "Workspace":
