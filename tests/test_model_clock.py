@@ -104,7 +104,7 @@ def test_clean_offsets_declines_a_single_time_in_the_gap_between_probes():
     assert _clean_offsets(wall.view(np.int64), "Europe/Berlin") is not None
     odd = np.sort(np.r_[wall, np.datetime64("2026-03-29T02:17:30", "us")])
     assert _clean_offsets(odd.view(np.int64), "Europe/Berlin") is None
-    utc, gap = wall_to_utc(odd, "Europe/Berlin")
+    _, gap = wall_to_utc(odd, "Europe/Berlin")
     assert gap.sum() == 1
 
 

@@ -16,6 +16,7 @@ import pandas as pd
 from sleepfuse.model.config import StudyConfig
 from sleepfuse.model.qc import QCLog
 from sleepfuse.model.stages import Stage
+
 from .opportunity import Window
 from .parameters import COMMON_PARAMETERS, STAGE_PARAMETERS
 
