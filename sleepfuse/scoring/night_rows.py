@@ -29,6 +29,7 @@ PARAMETER_COLUMNS = list(
 NIGHT_COLUMNS = KEY_COLUMNS + WINDOW_COLUMNS + PARAMETER_COLUMNS + ["included", "qc"]
 
 _BLANK_ROW = {c: math.nan for c in PARAMETER_COLUMNS}
+_NS = 1_000_000_000
 
 
 def _row(participant: str, night: dt.date, source: str) -> dict:
@@ -71,9 +72,6 @@ def iso_seconds(times: list[pd.Timestamp]) -> list[str]:
         for i, text, off in zip(where, wall.tolist(), offsets.tolist()):
             out[i] = text + ("" if info is None else _offset_text(off))
     return out
-
-
-_NS = 1_000_000_000
 
 
 @functools.lru_cache(maxsize=64)

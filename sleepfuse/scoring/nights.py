@@ -102,7 +102,7 @@ def score_psg(config: StudyConfig, participant: str, hypnograms: list[Hypnogram]
     params = {}
     for epoch_s in dict.fromkeys(h.epoch_s for h, window, _, _ in planned if window is not None):
         ks = [k for k, (h, window, _, _) in enumerate(planned) if window is not None and h.epoch_s == epoch_s]
-        got = sleep_parameters_many([planned[k][3][0] for k in ks], epoch_s, staged=True,
+        got = sleep_parameters_many([planned[k][3][0] for k in ks], epoch_s, staged=True,  # [3][0]: window's codes
                                     lps_run_min=config.scoring.lps_run_min,
                                     min_wake_bout_min=config.scoring.min_wake_bout_min)
         params.update(zip(ks, got))

@@ -146,8 +146,8 @@ def _clean_offsets(w: np.ndarray, tz: str) -> np.ndarray | int | None:
     for (p0, before), (p1, after) in zip(probes, probes[1:]):
         if before == after:
             continue
-        change = _change_instant(info, (p0 - before) // _US, -((after - p1) // _US))  # UTC seconds
-        if change is None or _offset_us(info, change - 1) != before or _offset_us(info, change) != after:
+        change = _change_instant(info, (p0 - before) // _US, -((after - p1) // _US), before, after)  # UTC s
+        if change is None:
             return None
         odd_from, odd_to = change * _US + min(before, after), change * _US + max(before, after)
         if ((w >= odd_from) & (w < odd_to)).any():
@@ -157,25 +157,23 @@ def _clean_offsets(w: np.ndarray, tz: str) -> np.ndarray | int | None:
 
 
 def _offset_us(info: dt.tzinfo, second: int) -> int:
+    """The zone's UTC offset (µs) at a UTC second."""
     off = dt.datetime.fromtimestamp(second, info).utcoffset()
     return (off.days * 86400 + off.seconds) * _US + off.microseconds
 
 
-def _change_instant(info: dt.tzinfo, lo: int, hi: int) -> int | None:
-    """The first UTC second in (lo, hi] whose offset differs from lo's (one change between them)."""
-    def offset(s: int) -> dt.timedelta | None:
-        return dt.datetime.fromtimestamp(s, info).utcoffset()
-
+def _change_instant(info: dt.tzinfo, lo: int, hi: int, before: int, after: int) -> int | None:
+    """The first UTC second in (lo, hi] with offset ``after``, by bisection, given offset ``before`` at ``lo``
+    and ``after`` at ``hi`` (one change between them); None where zoneinfo disagrees with those offsets."""
     try:
-        start, end = offset(lo), offset(hi)
+        if _offset_us(info, lo) != before or _offset_us(info, hi) != after:
+            return None
+        while hi - lo > 1:
+            mid = (lo + hi) // 2
+            if _offset_us(info, mid) == before:
+                lo = mid
+            else:
+                hi = mid
+        return hi if _offset_us(info, hi) == after else None  # a third offset between: not one change
     except (OverflowError, ValueError, OSError):
         return None
-    if start is None or start == end:
-        return None
-    while hi - lo > 1:
-        mid = (lo + hi) // 2
-        if offset(mid) == start:
-            lo = mid
-        else:
-            hi = mid
-    return hi
